@@ -1,0 +1,2 @@
+PLACEHOLDER = 1
+ADAPTERS = {"full": None, "lora": None, "embeddings": None, "top_layers": None}

@@ -1,0 +1,79 @@
+"""Config groups shared by several jobs: encoder, masking, runtime."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Optional
+
+from adapt.errors import Problems
+
+PACKAGED_ENCODER = "packaged:all-minilm-l6-v2"
+
+
+@dataclass
+class EncoderConfig:
+    # Local folder, model id already in the local cache, or "packaged:all-minilm-l6-v2" (the encoder shipped
+    # as a Python package; needs no network).
+    name_or_path: str = PACKAGED_ENCODER
+    # Build a randomly initialised model with the tokenizer of name_or_path and these config overrides
+    # (e.g. hidden_size: 32). For smoke runs and tests only.
+    random_init: bool = False
+    random_overrides: dict[str, Any] = field(default_factory=dict)
+    # Never run code shipped with a model unless the user opts in.
+    trust_remote_code: bool = False
+    # Tokens per sequence, including the special tokens.
+    max_seq_len: int = 128
+
+
+@dataclass
+class MaskingConfig:
+    # Share of non-special tokens selected for prediction (Devlin et al. 2019, BERT §3.1: 0.15).
+    rate: float = 0.15
+    # Of the selected tokens: share replaced by the mask token, share replaced by a random token;
+    # the rest stay unchanged (BERT: 0.8 / 0.1 / 0.1).
+    mask_share: float = 0.8
+    random_share: float = 0.1
+
+
+@dataclass
+class RuntimeConfig:
+    # "auto" picks a GPU when one is visible, else the CPU.
+    device: str = "auto"
+    # "fp32" or "bf16" (autocast; faster on CPUs with avx512_bf16/AMX and on recent GPUs).
+    precision: str = "fp32"
+    # CPU threads for torch; 0 leaves torch's default.
+    num_threads: int = 0
+    # Show tqdm progress bars.
+    progress: bool = True
+
+
+def validate_encoder(cfg: EncoderConfig, prefix: str, p: Problems) -> None:
+    p.check(bool(cfg.name_or_path), f"{prefix}.name_or_path is empty; give a folder or {PACKAGED_ENCODER}")
+    p.check(8 <= cfg.max_seq_len <= 8192,
+            f"{prefix}.max_seq_len={cfg.max_seq_len} is outside [8, 8192]; try {prefix}.max_seq_len=128")
+
+
+def validate_masking(cfg: MaskingConfig, prefix: str, p: Problems) -> None:
+    p.check(0.0 < cfg.rate < 1.0, f"{prefix}.rate={cfg.rate} is outside (0, 1); try {prefix}.rate=0.15")
+    p.check(0.0 <= cfg.mask_share <= 1.0,
+            f"{prefix}.mask_share={cfg.mask_share} is outside [0, 1]; try {prefix}.mask_share=0.8")
+    p.check(0.0 <= cfg.random_share <= 1.0,
+            f"{prefix}.random_share={cfg.random_share} is outside [0, 1]; try {prefix}.random_share=0.1")
+    p.check(cfg.mask_share + cfg.random_share <= 1.0 + 1e-9,
+            f"{prefix}.mask_share + {prefix}.random_share = {cfg.mask_share + cfg.random_share} exceeds 1; "
+            f"try mask_share=0.8 random_share=0.1")
+
+
+def validate_runtime(cfg: RuntimeConfig, prefix: str, p: Problems) -> None:
+    p.check(cfg.device in ("auto", "cpu", "cuda") or cfg.device.startswith("cuda:"),
+            f"{prefix}.device={cfg.device!r} is not one of auto, cpu, cuda, cuda:N; try {prefix}.device=auto")
+    p.check(cfg.precision in ("fp32", "bf16"),
+            f"{prefix}.precision={cfg.precision!r} is not one of fp32, bf16; try {prefix}.precision=fp32")
+    p.check(cfg.num_threads >= 0, f"{prefix}.num_threads={cfg.num_threads} is negative; use 0 for the default")
+
+
+def optional_str(value: Optional[str]) -> Optional[str]:
+    """Treat '', 'null' and 'none' as unset (handy on the command line)."""
+    if value is None or str(value).strip().lower() in ("", "null", "none"):
+        return None
+    return value

@@ -1,0 +1,129 @@
+"""Config schema of the pretrain job."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Optional
+
+from adapt.config.common import (EncoderConfig, MaskingConfig, RuntimeConfig, validate_encoder,
+                                 validate_masking, validate_runtime)
+from adapt.errors import Problems
+
+
+@dataclass
+class ScheduleConfig:
+    learning_rate: float = 5e-5
+    weight_decay: float = 0.01
+    # Optimizer steps; one step = grad_accum_steps micro-steps of batch_size sequences (per process).
+    max_steps: int = 200
+    batch_size: int = 16
+    grad_accum_steps: int = 1
+    warmup_steps: int = 20
+    # Learning-rate shape after warmup: linear, cosine or constant.
+    decay: str = "linear"
+    max_grad_norm: float = 1.0
+    # Stop cleanly (with a checkpoint) after this many steps although the schedule runs to max_steps;
+    # for time-boxed allocations. Resume with resume=auto. null = run to the end.
+    stop_after_steps: Optional[int] = None
+
+
+@dataclass
+class HeadWarmupConfig:
+    # auto: warm up only when the MLM head is missing or partial; always; never.
+    when: str = "auto"
+    # Optimizer steps training the head alone with the encoder frozen.
+    steps: int = 100
+    learning_rate: float = 1e-3
+    batch_size: int = 16
+
+
+@dataclass
+class AdapterConfig:
+    # Training variant from the registry in adapt.adapters: full, lora, embeddings, top_layers.
+    kind: str = "full"
+    # LoRA rank, scaling numerator and dropout (Hu et al. 2021).
+    r: int = 8
+    alpha: int = 16
+    dropout: float = 0.0
+    target_modules: list[str] = field(default_factory=lambda: ["query", "key", "value"])
+    # top_layers: how many of the highest encoder layers to train.
+    num_top_layers: int = 2
+
+
+@dataclass
+class EvalConfig:
+    # Cheap held-out MLM loss with a fixed mask every N steps (0 = only at start and end).
+    every_steps: int = 50
+    # Held-out sequences used for that loss.
+    max_heldout_seqs: int = 64
+    # Exact pseudo-perplexity at start and end on at most this many held-out tokens (0 = skip).
+    pppl_max_tokens: int = 2000
+    pppl_batch_size: int = 64
+
+
+@dataclass
+class CheckpointConfig:
+    # Save the full training state every N steps (0 = only at the end or on interruption).
+    save_every_steps: int = 100
+    # Keep the newest N checkpoints.
+    keep_last: int = 2
+
+
+@dataclass
+class PretrainJob:
+    # Prepared corpus folder (output of the prepare job: train/ and heldout/ Parquet shards).
+    corpus_dir: str = "???"
+    # Optional prepared general-text corpus; its held-out loss and pseudo-perplexity measure forgetting.
+    general_dir: Optional[str] = None
+    out_dir: str = "runs/pretrain"
+    seed: int = 0
+    # auto: continue from the newest checkpoint in out_dir if there is one; never: refuse an existing run;
+    # or a path to a checkpoint folder.
+    resume: str = "auto"
+    encoder: EncoderConfig = field(default_factory=EncoderConfig)
+    masking: MaskingConfig = field(default_factory=MaskingConfig)
+    schedule: ScheduleConfig = field(default_factory=ScheduleConfig)
+    head_warmup: HeadWarmupConfig = field(default_factory=HeadWarmupConfig)
+    adapter: AdapterConfig = field(default_factory=AdapterConfig)
+    eval: EvalConfig = field(default_factory=EvalConfig)
+    checkpoint: CheckpointConfig = field(default_factory=CheckpointConfig)
+    runtime: RuntimeConfig = field(default_factory=RuntimeConfig)
+
+
+def validate(cfg: PretrainJob, p: Problems, prefix: str = "") -> None:
+    k = (prefix + ".") if prefix else ""
+    p.check(cfg.corpus_dir not in ("", "???"), f"{k}corpus_dir is not set; pass {k}corpus_dir=<prepared folder>")
+    validate_encoder(cfg.encoder, f"{k}encoder", p)
+    validate_masking(cfg.masking, f"{k}masking", p)
+    validate_runtime(cfg.runtime, f"{k}runtime", p)
+    s = cfg.schedule
+    p.check(s.learning_rate > 0, f"{k}schedule.learning_rate={s.learning_rate} must be > 0; try 5e-5")
+    p.check(s.max_steps >= 1, f"{k}schedule.max_steps={s.max_steps} must be >= 1")
+    p.check(s.batch_size >= 1, f"{k}schedule.batch_size={s.batch_size} must be >= 1")
+    p.check(s.grad_accum_steps >= 1, f"{k}schedule.grad_accum_steps={s.grad_accum_steps} must be >= 1")
+    p.check(0 <= s.warmup_steps <= s.max_steps,
+            f"{k}schedule.warmup_steps={s.warmup_steps} must be within [0, max_steps={s.max_steps}]")
+    p.check(s.decay in ("linear", "cosine", "constant"),
+            f"{k}schedule.decay={s.decay!r} is not one of linear, cosine, constant")
+    p.check(s.max_grad_norm >= 0, f"{k}schedule.max_grad_norm={s.max_grad_norm} must be >= 0 (0 = no clipping)")
+    p.check(s.stop_after_steps is None or 1 <= s.stop_after_steps <= s.max_steps,
+            f"{k}schedule.stop_after_steps={s.stop_after_steps} must be within [1, max_steps] or null")
+    h = cfg.head_warmup
+    p.check(h.when in ("auto", "always", "never"),
+            f"{k}head_warmup.when={h.when!r} is not one of auto, always, never")
+    p.check(h.steps >= 0 and h.batch_size >= 1 and h.learning_rate > 0,
+            f"{k}head_warmup needs steps >= 0, batch_size >= 1, learning_rate > 0")
+    from adapt.adapters import ADAPTERS  # registry lives with the code that implements it
+
+    a = cfg.adapter
+    p.check(a.kind in ADAPTERS, f"{k}adapter.kind={a.kind!r} is not registered; choose one of {sorted(ADAPTERS)}")
+    p.check(a.r >= 1 and a.alpha >= 1 and 0 <= a.dropout < 1,
+            f"{k}adapter needs r >= 1, alpha >= 1, 0 <= dropout < 1 (got r={a.r}, alpha={a.alpha}, dropout={a.dropout})")
+    p.check(a.num_top_layers >= 1, f"{k}adapter.num_top_layers={a.num_top_layers} must be >= 1")
+    e = cfg.eval
+    p.check(e.every_steps >= 0 and e.max_heldout_seqs >= 1 and e.pppl_max_tokens >= 0 and e.pppl_batch_size >= 1,
+            f"{k}eval needs every_steps >= 0, max_heldout_seqs >= 1, pppl_max_tokens >= 0, pppl_batch_size >= 1")
+    c = cfg.checkpoint
+    p.check(c.save_every_steps >= 0, f"{k}checkpoint.save_every_steps={c.save_every_steps} must be >= 0")
+    p.check(c.keep_last >= 1, f"{k}checkpoint.keep_last={c.keep_last} must be >= 1")
+    p.check(cfg.resume not in ("",), f"{k}resume is empty; use auto, never or a checkpoint folder")

@@ -1,0 +1,3 @@
+from adapt.errors import InputError
+def run(cfg):
+    raise InputError(f"inputs={cfg.inputs}: not implemented yet")

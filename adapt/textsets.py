@@ -1,0 +1,74 @@
+"""Read text sets: a prepared corpus folder (its Parquet split), or loose .parquet/.jsonl/.txt files.
+
+This is the one reader every stage uses for the prepare stage's output contract:
+``<corpus>/train/*.parquet`` and ``<corpus>/heldout/*.parquet`` with at least the columns ``id`` and ``text``.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pyarrow.parquet as pq
+
+from adapt.errors import InputError
+
+SPLITS = ("train", "heldout")
+
+
+def is_prepared_corpus(path: Path | str) -> bool:
+    path = Path(path)
+    return path.is_dir() and any((path / s).is_dir() for s in SPLITS)
+
+
+def read_prepared(corpus_dir: Path | str, split: str, columns: list[str] | None = None) -> list[dict]:
+    """Rows of one split of a prepared corpus, in shard order."""
+    corpus_dir = Path(corpus_dir)
+    split_dir = corpus_dir / split
+    if not split_dir.is_dir():
+        raise InputError(f"{corpus_dir}: no {split}/ folder; is this the output folder of the prepare job?")
+    shards = sorted(split_dir.glob("*.parquet"))
+    if not shards:
+        raise InputError(f"{split_dir}: no .parquet shards; run the prepare job into {corpus_dir} again")
+    rows: list[dict] = []
+    for shard in shards:
+        table = pq.read_table(shard, columns=columns)
+        if "text" not in table.column_names:
+            raise InputError(f"{shard}: no 'text' column; it was not written by the prepare job")
+        rows.extend(table.to_pylist())
+    return rows
+
+
+def read_texts(path: Path | str, split: str = "heldout", text_field: str = "text") -> list[dict]:
+    """Documents as dicts with ``id`` and ``text`` from a prepared corpus or from loose files."""
+    path = Path(path)
+    if not path.exists():
+        raise InputError(f"{path}: does not exist; give a prepared corpus folder or a .parquet/.jsonl/.txt file")
+    if is_prepared_corpus(path):
+        return [{"id": str(r.get("id", i)), "text": r["text"]}
+                for i, r in enumerate(read_prepared(path, split, columns=None))]
+    files = sorted(f for f in path.rglob("*") if f.is_file()) if path.is_dir() else [path]
+    docs: list[dict] = []
+    for f in files:
+        if f.suffix == ".parquet":
+            table = pq.read_table(f)
+            if text_field not in table.column_names:
+                raise InputError(f"{f}: no column {text_field!r}; set text_field to one of {table.column_names}")
+            docs += [{"id": f"{f.name}:{i}", "text": t} for i, t in enumerate(table.column(text_field).to_pylist())]
+        elif f.suffix == ".jsonl":
+            for i, line in enumerate(f.read_text(encoding="utf-8").splitlines()):
+                if not line.strip():
+                    continue
+                try:
+                    rec = json.loads(line)
+                except json.JSONDecodeError as exc:
+                    raise InputError(f"{f}:{i + 1}: not valid JSON ({exc.msg}); fix or remove that line") from exc
+                if text_field not in rec:
+                    raise InputError(f"{f}:{i + 1}: no field {text_field!r}; set text_field to the right name")
+                docs.append({"id": str(rec.get("id", f"{f.name}:{i}")), "text": str(rec[text_field])})
+        elif f.suffix == ".txt":
+            docs.append({"id": f.name, "text": f.read_text(encoding="utf-8")})
+    docs = [d for d in docs if d["text"] and d["text"].strip()]
+    if not docs:
+        raise InputError(f"{path}: no readable documents (.parquet, .jsonl or .txt with non-empty text)")
+    return docs

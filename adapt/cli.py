@@ -7,6 +7,7 @@ composition errors (unknown key, wrong type), which are checked before Hydra sta
 
 from __future__ import annotations
 
+import importlib
 import logging
 import os
 import sys
@@ -29,14 +30,21 @@ def _fail(message: str) -> None:
 
 
 def _first_line(exc: BaseException) -> str:
-    """The informative line of a Hydra/OmegaConf error (they nest the cause under a generic header)."""
-    text = str(exc).strip()
-    if exc.__cause__ is not None:
-        text += "\n" + str(exc.__cause__).strip()
-    lines = [ln.strip() for ln in text.splitlines() if ln.strip()]
-    useful = [ln for ln in lines if not ln.startswith(("full_key", "object_type", "reference_type", "Config search",
-                                                       "provider=", "In '"))]
-    return ": ".join(useful[:2]) if useful else (lines[0] if lines else type(exc).__name__)
+    """One readable line from a Hydra/OmegaConf error (they nest the real cause under a generic header)."""
+    cause = exc.__cause__
+    if cause is not None and "not in" in str(cause):  # unknown key: the cause names key and schema
+        return str(cause).splitlines()[0].strip()
+    lines = [ln.strip() for ln in (str(exc) + "\n" + str(cause or "")).splitlines() if ln.strip()]
+    keep = []
+    for ln in lines:
+        if ln.startswith(("full_key", "object_type", "reference_type", "Config search", "provider=", "None",
+                          "To append")):
+            continue
+        keep.append(ln[len("In '"):].split("': ", 1)[-1] if ln.startswith("In '") else ln)
+    if any(ln.startswith("Available options") for ln in keep):  # unknown group option: list the choices
+        i = next(i for i, ln in enumerate(keep) if ln.startswith("Available options"))
+        return f"{keep[0]}; available: {', '.join(keep[i + 1:])}"
+    return ": ".join(k.rstrip(".") for k in keep[:2]) if keep else type(exc).__name__
 
 
 def _check_overrides(job: str, argv: list[str]) -> None:
@@ -63,49 +71,44 @@ def _quiet_libraries() -> None:
     transformers.logging.disable_progress_bar()
 
 
-def _launch(job: str, run: Callable[[Any], dict]) -> None:
+def _launch(job: str, module: str) -> None:
+    """Check overrides, then run ``<module>.run`` under Hydra (the stage is imported only after the check)."""
     register_schemas()
     _check_overrides(job, sys.argv[1:])
 
     @hydra.main(version_base="1.3", config_path=str(CONF_DIR), config_name=job)
     def _task(cfg: DictConfig) -> None:
         _quiet_libraries()
+        rank0 = os.environ.get("RANK", "0") == "0"  # under torchrun / accelerate launch only rank 0 talks
+        if not rank0:
+            logging.getLogger().setLevel(logging.WARNING)
+        run: Callable[[Any], dict] = importlib.import_module(module).run
         try:
             result = run(to_job(job, cfg))
         except UserError as exc:
             logging.getLogger("adapt").debug("user error", exc_info=True)
             _fail(str(exc))
-        for line in result.get("summary", []):
+        for line in result.get("summary", []) if rank0 else []:
             print(line)
 
     _task()
 
 
 def prepare_main() -> None:
-    from adapt.corpus.prepare import run
-
-    _launch("prepare", run)
+    _launch("prepare", "adapt.corpus.prepare")
 
 
 def pretrain_main() -> None:
-    from adapt.pretrain import run
-
-    _launch("pretrain", run)
+    _launch("pretrain", "adapt.pretrain")
 
 
 def score_main() -> None:
-    from adapt.score import run
-
-    _launch("score", run)
+    _launch("score", "adapt.score")
 
 
 def compare_main() -> None:
-    from adapt.compare import run
-
-    _launch("compare", run)
+    _launch("compare", "adapt.compare")
 
 
 def demo_main() -> None:
-    from adapt.demo import run
-
-    _launch("demo", run)
+    _launch("demo", "adapt.demo")

@@ -153,13 +153,15 @@ def run(cfg: PretrainJob) -> dict:
                 with contextlib.nullcontext() if last else accelerator.no_sync(loss_module):
                     loss = loss_module(masked.to(device), mask.to(device), labels.to(device)) / s.grad_accum_steps
                     accelerator.backward(loss)
-                step_loss += float(loss)
+                step_loss += float(loss.detach())
                 tokens_seen += int(mask.sum()) * accelerator.num_processes
             grad_norm = float(accelerator.clip_grad_norm_(params, s.max_grad_norm)) if s.max_grad_norm > 0 else None
             optimizer.step()
             scheduler.step()
             optimizer.zero_grad(set_to_none=True)
             step += 1
+            if accelerator.num_processes > 1:  # log the mean over processes, not rank 0's share
+                step_loss = float(accelerator.reduce(torch.tensor(step_loss, device=device), "mean"))
             bar.update(1)
             bar.set_postfix(loss=f"{step_loss:.3f}")
             record = {"phase": "train", "step": step, "loss": step_loss, "learning_rate": scheduler.get_last_lr()[0],

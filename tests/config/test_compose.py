@@ -1,0 +1,62 @@
+"""Every job config, every config-group option, every experiment and debug preset composes and validates."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from adapt.config import CONF_DIR, JOBS, compose_job
+from adapt.errors import ConfigError
+
+REQUIRED = {"prepare": ["inputs=[x]"], "pretrain": ["corpus_dir=x"], "score": ["texts=x"],
+            "compare": ["+arms.base=x"], "demo": []}
+GROUP_OWNER = {"encoder": "pretrain", "masking": "pretrain", "schedule": "pretrain", "adapter": "pretrain",
+               "task": "compare"}
+
+
+@pytest.mark.parametrize("job", sorted(JOBS))
+def test_job_composes_with_defaults_and_debug(job):
+    compose_job(job, REQUIRED[job])
+    compose_job(job, REQUIRED[job] + ["debug=tiny"])
+
+
+def _options(group: str) -> list[str]:
+    return sorted(p.stem for p in (CONF_DIR / group).glob("*.yaml"))
+
+
+@pytest.mark.parametrize("group,option", [(g, o) for g in GROUP_OWNER for o in _options(g)])
+def test_every_group_option_composes(group, option):
+    job = GROUP_OWNER[group]
+    compose_job(job, REQUIRED[job] + [f"{group}={option}"])
+
+
+@pytest.mark.parametrize("option", _options("experiment"))
+def test_every_experiment_composes(option):
+    for job in ("pretrain", "compare"):
+        try:
+            compose_job(job, REQUIRED[job] + [f"experiment={option}"])
+            return
+        except Exception:
+            continue
+    pytest.fail(f"experiment/{option}.yaml composes with no job")
+
+
+def test_bad_values_are_collected_into_one_error():
+    with pytest.raises(ConfigError) as err:
+        compose_job("pretrain", ["corpus_dir=x", "masking.rate=1.3", "schedule.decay=wobbly"])
+    message = str(err.value)
+    assert "masking.rate=1.3" in message and "schedule.decay='wobbly'" in message and "\n" not in message
+
+
+@pytest.mark.parametrize("args", [["bogus_key=1"], ["masking.rate=abc"], ["corpus_dir=x", "masking.rate=2"]])
+def test_cli_reports_bad_config_in_one_line_with_exit_2(args, tmp_path):
+    exe = Path(sys.executable).parent / "adapt-pretrain"
+    proc = subprocess.run([str(exe), f"out_dir={tmp_path / 'o'}", *args], capture_output=True, text=True,
+                          timeout=120)
+    assert proc.returncode == 2, proc.stderr
+    lines = [l for l in proc.stderr.splitlines() if l.strip()]
+    assert len(lines) == 1 and lines[0].startswith("error: "), proc.stderr
+    assert "Traceback" not in proc.stderr

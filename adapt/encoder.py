@@ -78,12 +78,15 @@ def load_mlm(cfg: EncoderConfig, path: str | None = None) -> tuple[PreTrainedMod
     if cfg.random_init:
         config = AutoConfig.from_pretrained(path, trust_remote_code=cfg.trust_remote_code,
                                             **dict(cfg.random_overrides))
-        torch.manual_seed(0)  # fixed init so smoke runs are reproducible
-        model = AutoModelForMaskedLM.from_config(config)
+        with torch.random.fork_rng():  # fixed init so smoke runs are reproducible
+            torch.manual_seed(0)
+            model = AutoModelForMaskedLM.from_config(config)
         return model, HeadReport(head_params=_count(model, head_parameter_names(model)))
     try:
-        model, info = AutoModelForMaskedLM.from_pretrained(path, trust_remote_code=cfg.trust_remote_code,
-                                                           output_loading_info=True, dtype=torch.float32)
+        with torch.random.fork_rng():  # missing head weights get the same random init on every load
+            torch.manual_seed(0)
+            model, info = AutoModelForMaskedLM.from_pretrained(path, trust_remote_code=cfg.trust_remote_code,
+                                                               output_loading_info=True, dtype=torch.float32)
     except (OSError, ValueError) as exc:
         raise _unloadable(cfg.name_or_path, exc) from exc
     prefix = model.base_model_prefix + "."
@@ -96,8 +99,8 @@ def load_mlm(cfg: EncoderConfig, path: str | None = None) -> tuple[PreTrainedMod
                         head_params=_count(model, head_parameter_names(model)))
     if report.missing:
         log.warning("MLM head missing or partial in %s: %d weights initialised at random (%s...); "
-                    "it will be warmed up before any measurement", cfg.name_or_path, len(missing),
-                    ", ".join(missing[:2]))
+                    "masked-token predictions are meaningless until the head is trained", cfg.name_or_path,
+                    len(missing), ", ".join(missing[:2]))
     return model, report
 
 

@@ -73,8 +73,9 @@ def run(cfg: PretrainJob) -> dict:
     tokenizer = load_tokenizer(cfg.encoder)
     model, head_report = load_mlm(cfg.encoder)
     _, train = _load_split(cfg.corpus_dir, "train", tokenizer, cfg, "corpus_dir")
-    _, heldout = _load_split(cfg.corpus_dir, "heldout", tokenizer, cfg, "corpus_dir")
-    general = _load_split(general_dir, "heldout", tokenizer, cfg, "general_dir")[1] if general_dir else None
+    heldout_docs, heldout = _load_split(cfg.corpus_dir, "heldout", tokenizer, cfg, "corpus_dir")
+    general_docs, general = _load_split(general_dir, "heldout", tokenizer, cfg, "general_dir") if general_dir \
+        else ([], None)
     if len(train) < cfg.schedule.batch_size * accelerator.num_processes:
         raise ConfigError(f"schedule.batch_size={cfg.schedule.batch_size} × {accelerator.num_processes} "
                           f"process(es) exceeds the {len(train)} packed training sequences in {cfg.corpus_dir}; "
@@ -84,7 +85,9 @@ def run(cfg: PretrainJob) -> dict:
     evals = {"domain": FixedMaskEval(heldout, plan, cfg.seed, cfg.eval.max_heldout_seqs, cfg.schedule.batch_size)}
     if general is not None:
         evals["general"] = FixedMaskEval(general, plan, cfg.seed, cfg.eval.max_heldout_seqs, cfg.schedule.batch_size)
-    pppl_texts = {"domain": heldout, **({"general": general} if general is not None else {})}
+    pppl_texts = {"domain": [d["text"] for d in heldout_docs]}
+    if general_docs:
+        pppl_texts["general"] = [d["text"] for d in general_docs]
     model.to(device)
 
     if resume_from is None:
@@ -101,7 +104,7 @@ def run(cfg: PretrainJob) -> dict:
             export_checkpoint(model, tokenizer, out / "base")
             loss_module = MaskedOnlyMlm(model)
             start = {f"heldout_loss_{k}": e.loss(loss_module, device, autocast) for k, e in evals.items()}
-            start.update(measure_pppl(model, tokenizer, pppl_texts, cfg, device))
+            start.update(measure_pppl(model, tokenizer, pppl_texts, cfg))
             metrics.write(phase="start", step=0, **start)
             log.info("base model: %s", _fmt(start))
 
@@ -185,7 +188,7 @@ def run(cfg: PretrainJob) -> dict:
 
     end = {f"heldout_loss_{k}": e.loss(loss_module, device, autocast) for k, e in evals.items()}
     final_model = adapter.export(accelerator.unwrap_model(loss_module).model)
-    end.update(measure_pppl(final_model, tokenizer, pppl_texts, cfg, device) if main else {})
+    end.update(measure_pppl(final_model, tokenizer, pppl_texts, cfg) if main else {})
     result = {"out_dir": str(out), "step": step, "completed": True, "tokens_seen": tokens_seen,
               "trainable_parameters": trainable, "total_parameters": total, "head_missing": head_report.missing,
               "start": _start_figures(metrics), "end": end}

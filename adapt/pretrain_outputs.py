@@ -8,7 +8,6 @@ from pathlib import Path
 
 import torch
 
-from adapt.batches import PackedSequences
 from adapt.config.pretrain import PretrainJob
 from adapt.runs import atomic_write_text
 
@@ -27,19 +26,19 @@ def export_checkpoint(model: torch.nn.Module, tokenizer, folder: Path) -> None:
     tokenizer.save_pretrained(folder)
 
 
-def measure_pppl(model: torch.nn.Module, tokenizer, texts: dict[str, PackedSequences], cfg: PretrainJob,
-                 device: torch.device) -> dict[str, float]:
-    """Exact pseudo-perplexity on a bounded sample of each held-out set (keys ``pppl_<name>``)."""
+def measure_pppl(model: torch.nn.Module, tokenizer, texts: dict[str, list[str]], cfg: PretrainJob) -> dict[str, float]:
+    """Exact pseudo-perplexity on the first ``eval.pppl_max_tokens`` tokens of each held-out set
+    (keys ``pppl_<name>``); the same documents and tokens at the start and at the end of a run."""
     if cfg.eval.pppl_max_tokens <= 0:
         return {}
-    from adapt.pppl import pseudo_perplexity_of_sequences
+    from adapt.pppl import pseudo_perplexity, score_documents
 
     out = {}
-    for name, seqs in texts.items():
-        out[f"pppl_{name}"] = pseudo_perplexity_of_sequences(
-            model, tokenizer, seqs.input_ids, seqs.attention_mask, max_tokens=cfg.eval.pppl_max_tokens,
-            batch_size=cfg.eval.pppl_batch_size, precision=cfg.runtime.precision, device=device,
-            progress=cfg.runtime.progress)
+    for name, docs in texts.items():
+        scores = score_documents(model, tokenizer, docs, max_seq_len=cfg.encoder.max_seq_len,
+                                 batch_size=cfg.eval.pppl_batch_size, precision=cfg.runtime.precision,
+                                 progress=cfg.runtime.progress, max_tokens=cfg.eval.pppl_max_tokens)
+        out[f"pppl_{name}"] = pseudo_perplexity(scores)
     return out
 
 

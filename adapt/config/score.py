@@ -6,6 +6,19 @@ from dataclasses import dataclass, field
 
 from adapt.config.common import EncoderConfig, RuntimeConfig, validate_encoder, validate_runtime
 from adapt.errors import Problems
+from adapt.textsets import SPLITS
+
+# Scoring variants of adapt.pppl: "token" masks one token per copy (Salazar et al. 2020); "word_l2r" also masks
+# the later pieces of the same word (PLL-word-l2r, Kauf & Ivanova 2023).
+VARIANTS = ("token", "word_l2r")
+
+
+@dataclass
+class CIConfig:
+    # Confidence level of the percentile bootstrap over documents.
+    level: float = 0.95
+    # Bootstrap resamples (0 = no interval).
+    n_resamples: int = 1000
 
 
 @dataclass
@@ -18,11 +31,18 @@ class ScoreJob:
     split: str = "heldout"
     out_dir: str = "runs/score"
     seed: int = 0
-    # Score at most this many documents / tokens (0 = all), chosen with the seed.
+    # Score at most this many documents / tokens (0 = all). With either limit set, documents are taken in a
+    # seeded random order; the document that crosses max_tokens is cut so the total equals the budget.
     max_docs: int = 0
     max_tokens: int = 0
     # Masked copies per forward pass.
     batch_size: int = 64
+    # token or word_l2r (see VARIANTS above).
+    variant: str = "token"
+    # Score a checkpoint whose MLM head was initialised at random (e.g. the packaged encoder). The figure is then
+    # meaningless as a quality measure; only for speed measurements and plumbing checks.
+    allow_untrained_head: bool = False
+    ci: CIConfig = field(default_factory=CIConfig)
     runtime: RuntimeConfig = field(default_factory=RuntimeConfig)
 
 
@@ -31,5 +51,11 @@ def validate(cfg: ScoreJob, p: Problems, prefix: str = "") -> None:
     validate_encoder(cfg.encoder, f"{k}encoder", p)
     validate_runtime(cfg.runtime, f"{k}runtime", p)
     p.check(cfg.texts not in ("", "???"), f"{k}texts is not set; pass {k}texts=<prepared folder or file>")
-    p.check(cfg.max_docs >= 0 and cfg.max_tokens >= 0, f"{k}max_docs and {k}max_tokens must be >= 0")
-    p.check(cfg.batch_size >= 1, f"{k}batch_size={cfg.batch_size} must be >= 1")
+    p.check(cfg.split in SPLITS, f"{k}split={cfg.split!r} is not one of {', '.join(SPLITS)}; try {k}split=heldout")
+    p.check(cfg.max_docs >= 0 and cfg.max_tokens >= 0, f"{k}max_docs and {k}max_tokens must be >= 0 (0 = all)")
+    p.check(cfg.batch_size >= 1, f"{k}batch_size={cfg.batch_size} must be >= 1; try {k}batch_size=64")
+    p.check(cfg.variant in VARIANTS,
+            f"{k}variant={cfg.variant!r} is not one of {', '.join(VARIANTS)}; try {k}variant=token")
+    p.check(0.0 < cfg.ci.level < 1.0, f"{k}ci.level={cfg.ci.level} is outside (0, 1); try {k}ci.level=0.95")
+    p.check(cfg.ci.n_resamples >= 0,
+            f"{k}ci.n_resamples={cfg.ci.n_resamples} is negative; try {k}ci.n_resamples=1000 (0 = no interval)")

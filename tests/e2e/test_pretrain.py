@@ -39,7 +39,7 @@ def tiny_cfg(tmp_path: Path, encoder: Path, out: str, *extra: str):
 
 
 def test_fresh_run_writes_the_contract(tmp_path, tiny_encoder_headless):
-    result = run(tiny_cfg(tmp_path, tiny_encoder_headless, "run"))
+    result = run(tiny_cfg(tmp_path, tiny_encoder_headless, "run", "eval.pppl_max_tokens=32"))
     out = tmp_path / "run"
     assert result["completed"] and result["step"] == 4
     assert result["head_missing"], "the headless encoder must be detected"
@@ -47,6 +47,10 @@ def test_fresh_run_writes_the_contract(tmp_path, tiny_encoder_headless):
     phases = [r["phase"] for r in records]
     assert phases[0] == "head_warmup" and "start" in phases and phases[-1] == "end"
     assert [r["step"] for r in records if r["phase"] == "train"] == [1, 2, 3, 4]
+    start, end = records[phases.index("start")], records[-1]
+    for key in ("heldout_loss_domain", "pppl_domain"):
+        assert key in start and key in end and start[key] > 1.0
+    assert start["pppl_domain"] != end["pppl_domain"], "training must move the held-out figure"
     from transformers import AutoModelForMaskedLM
 
     for folder in ("base", "final"):

@@ -1,0 +1,77 @@
+"""Text normalisation, markup stripping, mojibake repair, boilerplate lines, character sets."""
+
+from __future__ import annotations
+
+import unicodedata
+
+import numpy as np
+import pytest
+
+from adapt.corpus import charsets, cleaning
+
+
+def test_nfc_controls_and_whitespace():
+    decomposed = "Cafe\u0301  tenant\u00a0\u00a0notice\u200b\x07\r\n\n\n\n  next\tline  "
+    r = cleaning.normalise_text(decomposed)
+    assert r.text == "Café tenant notice\n\nnext line"
+    assert unicodedata.is_normalized("NFC", r.text)  # Unicode Standard Annex #15 (NFC)
+    assert r.control_chars == 2  # BEL and the zero-width space
+
+
+def test_html_is_stripped_to_its_text():
+    page = ("<html><head><title>t</title><style>p{color:red}</style></head><body><nav>Home | About</nav>"
+            "<p>The tenant&nbsp;paid &amp; left.</p><script>var x = 1;</script><div>Second</div></body></html>")
+    r = cleaning.normalise_text(page)
+    assert r.text == "The tenant paid & left.\n\nSecond"  # blocks become paragraphs; &nbsp; becomes a space
+    assert "color" not in r.text and "var x" not in r.text and "Home" not in r.text
+    assert r.markup_share > 0.5
+    plain = "a < b and c > d, costs 5 <10"
+    assert cleaning.normalise_text(plain).text == plain  # comparison signs are not markup
+
+
+def test_mojibake_is_repaired():
+    broken = "café’s résumé".encode("utf-8").decode("cp1252")  # UTF-8 read as cp1252
+    assert broken != "café’s résumé"
+    text, n = cleaning.repair_mojibake(broken)
+    assert text == "café’s résumé" and n == 4  # é, ’, é, é
+    assert cleaning.repair_mojibake("São Paulo, año, Ångström")[1] == 0  # real accented text is left alone
+
+
+def test_boilerplate_lines_are_found_by_document_frequency():
+    footer = "CONFIDENTIAL: this message is for the named recipient only and may be privileged."
+    docs = [f"Body text number {i} about a tenancy dispute and rent arrears.\n{footer}" for i in range(12)]
+    docs += [f"Another body {i} without the footer but long enough to count." for i in range(8)]
+    keys = np.concatenate([cleaning.line_keys(d, 40) for d in docs])
+    frequent = cleaning.frequent_lines(keys, len(docs), min_docs=10, min_doc_share=0.0)
+    assert len(frequent) == 1
+    text, removed = cleaning.remove_lines(docs[0], frequent, 40)
+    assert removed == 1 and footer not in text and text.startswith("Body text number 0")
+    # either criterion is enough: in 12 of 20 documents = 60% >= 50%
+    assert len(cleaning.frequent_lines(keys, len(docs), min_docs=0, min_doc_share=0.5)) == 1
+    assert len(cleaning.frequent_lines(keys, len(docs), min_docs=13, min_doc_share=0.0)) == 0
+
+
+@pytest.mark.parametrize("language,text,ok", [
+    ("en", "The tenant, Mr Ørsted, paid €1,200 (“in full”) — 100% on time… 🙂", True),
+    ("es", "¿Pagó el inquilino? ¡Sí! La señora Núñez pagó 1.200 € el día 3.º", True),
+    ("en", "¿Pagó el inquilino?", False),  # Spanish marks are not in the English allow-list
+    ("en", "Привет мир", False),
+    ("en", "Text with a replacement char \ufffd here", False),
+])
+def test_charset_allow_and_deny_lists(language, text, ok):
+    pattern = charsets.CharsetRules(language, emoji="🙂").compile()
+    verdict = charsets.check_charset(text, pattern, top_chars=3)
+    assert (verdict.share == 0.0) == ok
+
+
+def test_charset_share_top_offenders_and_extra_allowed():
+    text = "Patient given β-blocker and α agonist; dose 5 μg."
+    rules = charsets.CharsetRules("en")
+    v = charsets.check_charset(text, rules.compile(), top_chars=2)
+    assert v.share == pytest.approx(3 / (len(text) - text.count(" ")))
+    assert {c for c, _ in v.top} <= {"β", "α", "μ"} and len(v.top) == 2
+    assert "GREEK" in charsets.describe_char("β")
+    relaxed = charsets.CharsetRules("en", extra_allowed="αβμ").compile()  # extra_allowed wins over the deny-list
+    assert charsets.check_charset(text, relaxed, 2).share == 0.0
+    strict = charsets.CharsetRules("en", extra_denied=";").compile()
+    assert charsets.check_charset("a;b", strict, 2).share > 0

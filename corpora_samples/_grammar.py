@@ -79,6 +79,7 @@ class Grammar:
         self.rng = rng
         self.slots = dict(slots)
         self.ctx: dict[str, Any] = {}
+        self.style: Callable[[str], str] | None = None
 
     # -- expansion -------------------------------------------------------
     def _render(self, parts: list, out: list[str]) -> None:
@@ -118,8 +119,9 @@ class Grammar:
         return "".join(out)
 
     def s(self, template: str) -> str:
-        """Expand a template and tidy it as a sentence."""
-        return tidy(self.x(template))
+        """Expand a template, tidy it as a sentence and apply the author style."""
+        text = tidy(self.x(template))
+        return self.style(text) if self.style else text
 
     def pick(self, templates: list[str]) -> str:
         return self.s(templates[self.rng.randrange(len(templates))])
@@ -147,7 +149,7 @@ def tidy(text: str) -> str:
     text = _SPACE_PUNCT.sub(r"\1", text)
     text = text.replace("..", ".").replace(",.", ".").replace(" ,", ",")
     text = _A_AN.sub(_a_an, text)
-    if text and text[0].islower():
+    if text and text[0].islower() and not (len(text) > 1 and text[1].isupper()):
         text = text[0].upper() + text[1:]
     return text
 

@@ -27,7 +27,7 @@ LEGAL_TERMS = {
     ],
     "family": [
         "contact order", "child maintenance", "custody", "matrimonial home",
-        "separation", "the children", "mediation", "parenting plan",
+        "separation", "children", "mediation", "parenting plan",
         "guardian ad litem", "ancillary relief", "financial remedy",
         "spousal support", "relocation application", "non-molestation order",
     ],
@@ -41,7 +41,7 @@ CLINICAL_TERMS = {
         "paroxysmal nocturnal dyspnoea",
     ],
     "respiratory": [
-        "wheeze", "productive cough", "SpO2", "inhaler", "peak flow",
+        "wheeze", "productive cough", "sputum", "inhaler", "peak flow",
         "crackles", "COPD", "chest X-ray",
         "spirometry", "pleural effusion", "haemoptysis", "FEV1", "bronchiectasis",
         "pleuritic pain",
@@ -49,7 +49,7 @@ CLINICAL_TERMS = {
     "neurology": [
         "headache", "seizure", "facial droop", "slurred speech", "limb weakness",
         "numbness", "tremor", "CT head",
-        "diplopia", "dysarthria", "ataxia", "photophobia", "postictal",
+        "diplopia", "dysarthria", "ataxia", "photophobia", "postictal drowsiness",
         "hemianopia",
     ],
     "gastroenterology": [
@@ -62,3 +62,27 @@ CLINICAL_TERMS = {
 
 # How many of each list the training split may use.
 SEEN = 8
+
+# How each term is used in a sentence of the labelled tasks.
+# legal: "party" terms take "the" and are people/companies; "mass" terms take
+# no article; every other term takes "the".
+LEGAL_PARTY = {"landlord", "tenant", "employer", "line manager", "supplier"}
+LEGAL_MASS = {
+    "rent arrears", "quiet enjoyment", "distraint for rent", "forfeiture of the lease",
+    "unfair dismissal", "redundancy", "notice pay", "holiday pay", "garden leave",
+    "restraint of trade", "constructive dismissal", "wrongful dismissal", "breach of warranty",
+    "liquidated damages", "limitation of liability", "force majeure", "rescission",
+    "misrepresentation", "specific performance", "retention of title", "novation",
+    "child maintenance", "custody", "separation", "mediation", "ancillary relief",
+    "spousal support", "indemnity", "financial remedy",
+}
+# clinical: S symptom, F finding or sign, T test, D diagnosis, O object
+CLINICAL_KIND = {
+    "ECG": "T", "troponin": "T", "ejection fraction": "T", "ST depression": "F", "LBBB": "F",
+    "atrial fibrillation": "D", "NSTEMI": "D", "murmur": "F", "ankle oedema": "F",
+    "inhaler": "O", "peak flow": "T", "chest X-ray": "T", "spirometry": "T", "FEV1": "T",
+    "crackles": "F", "pleural effusion": "F", "COPD": "D", "bronchiectasis": "D",
+    "CT head": "T", "facial droop": "F", "dysarthria": "F", "ataxia": "F",
+    "postictal drowsiness": "F", "hemianopia": "F",
+    "LFTs": "T", "OGD": "T", "jaundice": "F", "ascites": "F",
+}

@@ -199,7 +199,11 @@ def town(rng: random.Random) -> str:
 def company(rng: random.Random) -> str:
     base = rng.choice([rng.choice(TOWNS), rng.choice(SURNAMES),
                        rng.choice(STREET_NAMES).replace("'s", "")])
-    return f"{base} {rng.choice(INDUSTRIES)} {rng.choice(COMPANY_SUFFIX)}"
+    industry = rng.choice(INDUSTRIES)
+    suffix = rng.choice(COMPANY_SUFFIX)
+    if industry.endswith(("Holdings", "Group", "Cooperative", "Guild", "Board")):
+        suffix = "Ltd" if rng.random() < 0.5 else ""
+    return f"{base} {industry} {suffix}".strip()
 
 
 def address(rng: random.Random) -> str:

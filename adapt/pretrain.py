@@ -95,11 +95,17 @@ def run(cfg: PretrainJob) -> dict:
         if warm.when == "always" or (warm.when == "auto" and head_report.needs_warmup):
             if warm.steps == 0 and head_report.needs_warmup:
                 log.warning("the MLM head is untrained and head_warmup.steps=0: base figures are meaningless")
-            losses = warm_up_head(model, train, plan, steps=warm.steps, learning_rate=warm.learning_rate,
-                                  batch_size=warm.batch_size, seed=cfg.seed, device=device, autocast=autocast,
-                                  progress=cfg.runtime.progress and main)
+            losses, converged = warm_up_head(
+                model, train, plan, steps=warm.steps, learning_rate=warm.learning_rate, batch_size=warm.batch_size,
+                seed=cfg.seed, device=device, autocast=autocast, progress=cfg.runtime.progress and main,
+                min_improvement=warm.min_improvement, window_steps=warm.window_steps)
             if main and losses:
-                metrics.write(phase="head_warmup", steps=len(losses), first_loss=losses[0], last_loss=losses[-1])
+                metrics.write(phase="head_warmup", steps=len(losses), first_loss=losses[0], last_loss=losses[-1],
+                              converged=converged, losses=losses)
+                if not converged and warm.min_improvement > 0:
+                    log.warning("the MLM head was still improving after head_warmup.steps=%d (loss %.3f -> %.3f): "
+                                "base figures may be too pessimistic; raise head_warmup.steps", len(losses),
+                                losses[0], losses[-1])
         if main:  # the fair "base": original encoder, warmed head, nothing else changed
             export_checkpoint(model, tokenizer, out / "base")
             loss_module = MaskedOnlyMlm(model)

@@ -31,10 +31,14 @@ class ScheduleConfig:
 class HeadWarmupConfig:
     # auto: warm up only when the MLM head is missing or partial; always; never.
     when: str = "auto"
-    # Optimizer steps training the head alone with the encoder frozen.
-    steps: int = 100
-    learning_rate: float = 1e-3
+    # Most optimizer steps training the head alone with the encoder frozen.
+    steps: int = 300
+    learning_rate: float = 3e-3
     batch_size: int = 16
+    # Stop early once the mean loss of the last `window_steps` steps improves on the window before it by less
+    # than this share (0 = always run all steps). A half-trained head makes the base look worse than it is.
+    min_improvement: float = 0.01
+    window_steps: int = 25
 
 
 @dataclass
@@ -113,6 +117,9 @@ def validate(cfg: PretrainJob, p: Problems, prefix: str = "") -> None:
             f"{k}head_warmup.when={h.when!r} is not one of auto, always, never")
     p.check(h.steps >= 0 and h.batch_size >= 1 and h.learning_rate > 0,
             f"{k}head_warmup needs steps >= 0, batch_size >= 1, learning_rate > 0")
+    p.check(0 <= h.min_improvement < 1 and h.window_steps >= 1,
+            f"{k}head_warmup needs 0 <= min_improvement < 1 and window_steps >= 1 "
+            f"(got {h.min_improvement}, {h.window_steps}); try min_improvement=0.01 window_steps=25")
     from adapt.adapters import ADAPTERS  # registry lives with the code that implements it
 
     a = cfg.adapter

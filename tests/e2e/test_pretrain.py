@@ -102,3 +102,12 @@ def test_every_adapter_trains_and_exports(tmp_path, tiny_encoder, kind):
     model, info = AutoModelForMaskedLM.from_pretrained(tmp_path / kind / "final", output_loading_info=True)
     assert not info["missing_keys"] and not info["unexpected_keys"]
     assert 0 < result["trainable_parameters"] <= result["total_parameters"]
+
+
+def test_head_warmup_stops_when_the_loss_levels_off(tmp_path, tiny_encoder_headless):
+    run(tiny_cfg(tmp_path, tiny_encoder_headless, "run", "head_warmup.steps=40", "head_warmup.window_steps=2",
+                 "head_warmup.min_improvement=0.9", "schedule.stop_after_steps=1"))
+    warm = json.loads((tmp_path / "run" / "metrics.jsonl").read_text().splitlines()[0])
+    # a 90% improvement between windows of 2 steps is impossible, so it stops at the first check
+    assert warm["phase"] == "head_warmup" and warm["converged"] and warm["steps"] == 4
+    assert len(warm["losses"]) == 4

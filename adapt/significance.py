@@ -1,0 +1,269 @@
+"""Statistics for comparing fine-tuned arms: seed summaries, paired tests over test examples, verdict wording.
+
+Predictions come as integer arrays of shape (S, n): S fine-tuning seeds × n test examples, the same seeds and
+examples for both arms, so every test is paired (Dror et al. 2018 recommend paired tests for this setting).
+
+- ``summarize``: mean, sd and a t-interval over seeds (seed-to-seed spread; Dodge et al. 2020).
+- ``paired_bootstrap``: resample test examples with replacement; per resample average each arm's metric over
+  seeds and take the difference -> percentile CI and one-sided p-values (Berg-Kirkpatrick et al. 2012, §2:
+  p = share of resampled differences at least twice the observed one).
+- ``paired_permutation``: swap the two arms' predictions of an example (a sign flip of its paired difference);
+  exact when 2^n is not larger than the number of resamples. For accuracy this is the sign-flip test on
+  per-example correctness pooled over seeds.
+- ``mcnemar_exact``: exact binomial McNemar test on the discordant pairs.
+
+Macro-F1 follows scikit-learn's ``f1_score(average="macro")``: the mean over labels that occur in the gold
+labels or the predictions, F1 = 0 where a label has no true positive.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from collections import Counter
+from typing import Optional
+
+import numpy as np
+from scipy import stats
+
+from adapt.config.compare import METRIC_NAMES, METRICS
+
+_CHUNK = 256  # resamples per matrix product, to bound memory on large test sets
+
+
+def summarize(values: list[float] | np.ndarray, confidence: float = 0.95,
+              bounds: Optional[tuple[float, float]] = None) -> dict[str, Optional[float]]:
+    """Mean, sample sd (ddof=1) and a two-sided t-interval of the mean; sd and CI are None for one value.
+
+    ``bounds`` clips the interval to the metric's range (a t-interval of few values can leave [0, 1]).
+    """
+    x = np.asarray(values, dtype=float)
+    if x.size == 0:
+        raise ValueError("summarize needs at least one value")
+    mean = float(x.mean())
+    if x.size < 2:
+        return {"n": 1, "mean": mean, "sd": None, "ci_low": None, "ci_high": None}
+    sd = float(x.std(ddof=1))
+    half = float(stats.t.ppf((1 + confidence) / 2, df=x.size - 1)) * sd / math.sqrt(x.size)
+    low, high = mean - half, mean + half
+    if bounds is not None:
+        low, high = max(low, bounds[0]), min(high, bounds[1])
+    return {"n": int(x.size), "mean": mean, "sd": sd, "ci_low": low, "ci_high": high}
+
+
+def _as_runs(preds: np.ndarray | list, n: int) -> np.ndarray:
+    p = np.asarray(preds, dtype=np.int64)
+    p = p[None, :] if p.ndim == 1 else p
+    if p.ndim != 2 or p.shape[1] != n:
+        raise ValueError(f"predictions must have shape (seeds, {n}); got {p.shape}")
+    return p
+
+
+def _indicators(gold: np.ndarray, pred: np.ndarray, n_classes: int) -> tuple[np.ndarray, ...]:
+    """Per-example one-hot true positives, false positives, false negatives: each (n, C) float."""
+    g = np.eye(n_classes)[gold]
+    q = np.eye(n_classes)[pred]
+    tp = g * q
+    return tp, q - tp, g - tp
+
+
+def macro_f1_from_counts(tp: np.ndarray, fp: np.ndarray, fn: np.ndarray) -> np.ndarray:
+    """Macro-F1 from per-class counts of shape (..., C), averaged over classes with tp + fp + fn > 0."""
+    denom = 2 * tp + fp + fn
+    present = denom > 0
+    f1 = np.divide(2 * tp, denom, out=np.zeros_like(denom, dtype=float), where=present)
+    return f1.sum(axis=-1) / np.maximum(present.sum(axis=-1), 1)
+
+
+class _PairedCounts:
+    """Per-seed, per-example indicators of both arms; metric values for example weightings in one matrix product."""
+
+    def __init__(self, gold, preds_a, preds_b):
+        self.gold = np.asarray(gold, dtype=np.int64)
+        n = self.gold.size
+        if n == 0:
+            raise ValueError("paired tests need at least one test example")
+        self.a, self.b = _as_runs(preds_a, n), _as_runs(preds_b, n)
+        if self.a.shape != self.b.shape:
+            raise ValueError(f"both arms need the same seeds: shapes {self.a.shape} and {self.b.shape}")
+        self.n, self.seeds = n, self.a.shape[0]
+        c = int(max(self.gold.max(), self.a.max(), self.b.max())) + 1
+        self.ind_a = [_indicators(self.gold, self.a[s], c) for s in range(self.seeds)]
+        self.ind_b = [_indicators(self.gold, self.b[s], c) for s in range(self.seeds)]
+
+    def metrics(self, weights: np.ndarray, ind: list) -> dict[str, np.ndarray]:
+        """Seed-averaged accuracy and macro-F1 for each row of example weights (R, n) -> (R,)."""
+        acc = np.zeros(weights.shape[0])
+        f1 = np.zeros(weights.shape[0])
+        for tp, fp, fn in ind:
+            acc += (weights @ tp.sum(axis=1)) / weights.sum(axis=1)
+            f1 += macro_f1_from_counts(weights @ tp, weights @ fp, weights @ fn)
+        return {"accuracy": acc / len(ind), "macro_f1": f1 / len(ind)}
+
+    def observed(self) -> dict[str, float]:
+        w = np.ones((1, self.n))
+        ma, mb = self.metrics(w, self.ind_a), self.metrics(w, self.ind_b)
+        return {m: float(ma[m][0] - mb[m][0]) for m in METRICS}
+
+
+def paired_bootstrap(gold, preds_a, preds_b, n_resamples: int, rng: np.random.Generator,
+                     confidence: float = 0.95) -> dict[str, dict[str, float]]:
+    """Difference (a − b) of seed-averaged accuracy and macro-F1 with a percentile CI over resampled examples.
+
+    ``p_better`` tests "a better than b" and ``p_worse`` "a worse than b" (each one-sided, shifted-null form of
+    Berg-Kirkpatrick et al. 2012, §2), with the usual +1 in numerator and denominator.
+    """
+    pc = _PairedCounts(gold, preds_a, preds_b)
+    observed = pc.observed()
+    diffs: dict[str, list[np.ndarray]] = {m: [] for m in METRICS}
+    for start in range(0, n_resamples, _CHUNK):
+        size = min(_CHUNK, n_resamples - start)
+        idx = rng.integers(0, pc.n, size=(size, pc.n))
+        # resample counts: how often each example was drawn in each resample, (R, n)
+        w = np.zeros((size, pc.n))
+        np.add.at(w, (np.arange(size)[:, None], idx), 1.0)
+        ma, mb = pc.metrics(w, pc.ind_a), pc.metrics(w, pc.ind_b)
+        for m in METRICS:
+            diffs[m].append(ma[m] - mb[m])
+    alpha = 1 - confidence
+    out = {}
+    for m in METRICS:
+        d = np.concatenate(diffs[m])
+        low, high = np.percentile(d, [100 * alpha / 2, 100 * (1 - alpha / 2)])
+        obs = observed[m]
+        out[m] = {"difference": obs, "ci_low": float(low), "ci_high": float(high),
+                  "p_better": float((np.count_nonzero(d - obs >= obs) + 1) / (d.size + 1)),
+                  "p_worse": float((np.count_nonzero(d - obs <= obs) + 1) / (d.size + 1)),
+                  "resamples": int(d.size)}
+    return out
+
+
+def _sign_patterns(n: int, n_resamples: int, rng: np.random.Generator) -> tuple[np.ndarray, bool]:
+    """Rows of swap indicators (1 = swap the arms for that example): all 2^n when that is few enough."""
+    if n < 63 and 2 ** n <= n_resamples:
+        return np.array(list(itertools.product((0.0, 1.0), repeat=n))), True
+    return rng.integers(0, 2, size=(n_resamples, n)).astype(float), False
+
+
+def paired_permutation(gold, preds_a, preds_b, n_resamples: int,
+                       rng: np.random.Generator) -> dict[str, dict[str, float]]:
+    """Paired permutation test of the seed-averaged difference (a − b) in accuracy and macro-F1.
+
+    Under the null hypothesis the two arms are exchangeable per example, so each example's predictions (all
+    seeds) are swapped between the arms at random. p-values count null statistics at least as extreme as the
+    observed one, with scipy.stats.permutation_test's tie tolerance and +1 adjustment for random resamples.
+    """
+    pc = _PairedCounts(gold, preds_a, preds_b)
+    observed = pc.observed()
+    swaps, exact = _sign_patterns(pc.n, n_resamples, rng)
+    null: dict[str, list[np.ndarray]] = {m: [] for m in METRICS}
+    ones = np.ones((1, pc.n))
+    for start in range(0, swaps.shape[0], _CHUNK):
+        u = swaps[start:start + _CHUNK]  # (R, n)
+        acc = np.zeros(u.shape[0])
+        f1 = np.zeros(u.shape[0])
+        for ia, ib in zip(pc.ind_a, pc.ind_b):
+            # counts of arm a after swapping = a's totals + swapped examples' (b − a); arm b the reverse
+            delta = [u @ (xb - xa) for xa, xb in zip(ia, ib)]
+            tot_a = [ones @ xa for xa in ia]
+            tot_b = [ones @ xb for xb in ib]
+            cnt_a = [t + d for t, d in zip(tot_a, delta)]
+            cnt_b = [t - d for t, d in zip(tot_b, delta)]
+            acc += (cnt_a[0].sum(axis=1) - cnt_b[0].sum(axis=1)) / pc.n
+            f1 += macro_f1_from_counts(*cnt_a) - macro_f1_from_counts(*cnt_b)
+        null["accuracy"].append(acc / pc.seeds)
+        null["macro_f1"].append(f1 / pc.seeds)
+    adjustment = 0 if exact else 1
+    out = {}
+    for m in METRICS:
+        d = np.concatenate(null[m])
+        obs = observed[m]
+        gamma = abs(np.finfo(float).eps * 100 * obs)
+        out[m] = {"difference": obs,
+                  "p_better": float((np.count_nonzero(d >= obs - gamma) + adjustment) / (d.size + adjustment)),
+                  "p_worse": float((np.count_nonzero(d <= obs + gamma) + adjustment) / (d.size + adjustment)),
+                  "resamples": int(d.size), "exact": exact}
+    return out
+
+
+def mcnemar_exact(correct_a, correct_b) -> dict[str, float]:
+    """Exact McNemar test: two-sided binomial test on the discordant pairs (b: only a correct, c: only b correct)."""
+    ca = np.asarray(correct_a, dtype=bool)
+    cb = np.asarray(correct_b, dtype=bool)
+    b = int(np.count_nonzero(ca & ~cb))
+    c = int(np.count_nonzero(~ca & cb))
+    p = 1.0 if b + c == 0 else min(1.0, 2.0 * float(stats.binom.cdf(min(b, c), b + c, 0.5)))
+    return {"only_a_correct": b, "only_b_correct": c, "p_value": p}
+
+
+def majority_vote(preds) -> np.ndarray:
+    """Per example, the label most seeds predicted; a tie goes to the tied label the earliest seed predicted."""
+    p = np.asarray(preds, dtype=np.int64)
+    p = p[None, :] if p.ndim == 1 else p
+    out = np.empty(p.shape[1], dtype=np.int64)
+    for i in range(p.shape[1]):
+        counts = Counter(p[:, i].tolist())
+        top = max(counts.values())
+        out[i] = next(lab for lab in p[:, i].tolist() if counts[lab] == top)
+    return out
+
+
+def compare_pair(gold, preds_a, preds_b, seed_metrics_a: dict[str, list[float]],
+                 seed_metrics_b: dict[str, list[float]], confidence: float = 0.95, bootstrap_resamples: int = 2000,
+                 permutation_resamples: int = 5000, seed: int = 0) -> dict:
+    """All paired tests of arm a against arm b; ``seed_metrics_*`` are per-seed test metrics in seed order."""
+    a = _as_runs(preds_a, len(gold))
+    b = _as_runs(preds_b, len(gold))
+    gold = np.asarray(gold, dtype=np.int64)
+    boot_rng, perm_rng = (np.random.default_rng(s) for s in np.random.SeedSequence(seed).spawn(2))
+    vote_a, vote_b = majority_vote(a), majority_vote(b)
+    return {
+        "n_examples": int(gold.size),
+        "n_seeds": int(a.shape[0]),
+        "confidence": confidence,
+        "bootstrap": paired_bootstrap(gold, a, b, bootstrap_resamples, boot_rng, confidence),
+        "permutation": paired_permutation(gold, a, b, permutation_resamples, perm_rng),
+        "mcnemar_majority_vote": mcnemar_exact(vote_a == gold, vote_b == gold),
+        "mcnemar_per_seed": [mcnemar_exact(a[s] == gold, b[s] == gold) for s in range(a.shape[0])],
+        # same-seed differences: how much of the effect survives seed-to-seed variation
+        "seed_differences": {m: summarize(np.subtract(seed_metrics_a[m], seed_metrics_b[m]), confidence)
+                             for m in METRICS},
+    }
+
+
+def verdict(pair: dict, arm: str, reference: str, metric: str = "macro_f1", min_seeds: int = 5) -> dict:
+    """Plain-words outcome from the paired-bootstrap CI of ``metric``, with the other tests and cautions."""
+    boot = pair["bootstrap"][metric]
+    conf = round(100 * pair["confidence"])
+    name = METRIC_NAMES[metric]
+    if boot["ci_low"] > 0:
+        outcome = f"{arm} better"
+    elif boot["ci_high"] < 0:
+        outcome = f"{arm} worse"
+    else:
+        outcome = "no detectable difference"
+    perm = pair["permutation"][metric]
+    direction = "p_worse" if boot["difference"] < 0 else "p_better"
+    text = (f"{outcome} ({arm} vs {reference}): {name} {boot['difference']:+.3f} "
+            f"({conf}% CI {boot['ci_low']:+.3f} to {boot['ci_high']:+.3f}, paired bootstrap over "
+            f"{pair['n_examples']} test examples); permutation p={perm[direction]:.3g} (one-sided, {arm} "
+            f"{direction[2:]}); "
+            f"McNemar p={pair['mcnemar_majority_vote']['p_value']:.3g}; {pair['n_seeds']} seed(s)")
+    cautions = []
+    if pair["n_seeds"] < min_seeds:
+        cautions.append(f"only {pair['n_seeds']} seed(s): fine-tuning results vary a lot with the seed "
+                        f"(Dodge et al. 2020); rerun with {min_seeds} or more seeds before relying on this")
+    if outcome == "no detectable difference":
+        cautions.append("not evidence that the arms are equal: differences inside the CI cannot be ruled out")
+    else:
+        alpha = 1 - pair["confidence"]
+        if perm[direction] > alpha / 2:
+            cautions.append(f"the permutation test does not confirm it at the same level (p={perm[direction]:.3g})")
+        diffs = pair["seed_differences"][metric]
+        if diffs["n"] >= 2 and diffs["ci_low"] is not None and diffs["ci_low"] <= 0 <= diffs["ci_high"]:
+            cautions.append(f"across seeds the same-seed difference is {diffs['mean']:+.3f} with a {conf}% "
+                            f"t-interval from {diffs['ci_low']:+.3f} to {diffs['ci_high']:+.3f}, which includes 0: "
+                            "the seed-to-seed spread is large compared with the effect")
+    return {"pair": f"{arm} vs {reference}", "outcome": outcome, "metric": metric,
+            "difference": boot["difference"], "ci_low": boot["ci_low"], "ci_high": boot["ci_high"],
+            "confidence": pair["confidence"], "text": text, "cautions": cautions}

@@ -121,7 +121,8 @@ def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPla
     for name, param in model.named_parameters():
         param.requires_grad_(name in head_names)
     head_params = [p for n, p in model.named_parameters() if n in head_names]
-    optimizer = torch.optim.AdamW(head_params, lr=learning_rate, weight_decay=0.0)
+    optimizer = torch.optim.AdamW(head_params, lr=learning_rate, weight_decay=0.0,
+                                  fused=device.type in ("cpu", "cuda"))
     loss_module = MaskedOnlyMlm(model).to(device).train()
     cursor = BatchCursor(len(seqs), min(batch_size, len(seqs)), step_seed(seed, 0x4EAD))
     losses: list[float] = []

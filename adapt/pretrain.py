@@ -55,7 +55,9 @@ def _optimizer(model: torch.nn.Module, cfg: PretrainJob) -> torch.optim.Optimize
             (no_decay if param.ndim < 2 else decay).append(param)
     groups = [{"params": decay, "weight_decay": cfg.schedule.weight_decay},
               {"params": no_decay, "weight_decay": 0.0}]
-    return torch.optim.AdamW(groups, lr=cfg.schedule.learning_rate)
+    # the fused kernel is several times faster on CPU and GPU, and deterministic
+    fused = next(model.parameters()).device.type in ("cpu", "cuda")
+    return torch.optim.AdamW(groups, lr=cfg.schedule.learning_rate, fused=fused)
 
 
 def run(cfg: PretrainJob) -> dict:

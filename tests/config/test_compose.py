@@ -33,6 +33,20 @@ def test_every_group_option_composes(group, option):
     compose_job(job, REQUIRED[job] + [f"{group}={option}"])
 
 
+JOB_GROUPS = [(job, group.name, option.stem) for job in sorted(JOBS)
+              for group in sorted((CONF_DIR.parent / "jobconf" / job).iterdir()) if group.is_dir()
+              for option in sorted(group.glob("*.yaml"))]
+
+
+@pytest.mark.parametrize("job,group,option", JOB_GROUPS)
+def test_every_job_specific_option_composes(job, group, option):
+    compose_job(job, REQUIRED[job] + [f"{group}={option}"])
+
+
+def test_job_specific_options_exist():
+    assert ("prepare", "preset", "clinical") in JOB_GROUPS and ("demo", "debug", "tiny") in JOB_GROUPS
+
+
 @pytest.mark.parametrize("option", _options("experiment"))
 def test_every_experiment_composes(option):
     for job in ("pretrain", "compare"):

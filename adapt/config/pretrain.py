@@ -33,12 +33,13 @@ class HeadWarmupConfig:
     when: str = "auto"
     # Most optimizer steps training the head alone with the encoder frozen.
     steps: int = 300
-    learning_rate: float = 3e-3
+    # measured on the packaged encoder: 1e-2 reaches in 300 steps the held-out loss 3e-3 needs 500 for
+    learning_rate: float = 1e-2
     batch_size: int = 16
     # Stop early once the mean loss of the last `window_steps` steps improves on the window before it by less
     # than this share (0 = always run all steps). A half-trained head makes the base look worse than it is.
     min_improvement: float = 0.01
-    window_steps: int = 25
+    window_steps: int = 50
 
 
 @dataclass

@@ -33,6 +33,7 @@ from transformers import PreTrainedModel, PreTrainedTokenizerBase
 
 from adapt.config.score import VARIANTS
 from adapt.errors import ConfigError
+from adapt.mlm import mlm_head
 
 log = logging.getLogger(__name__)
 
@@ -64,15 +65,6 @@ class _Windows:
     lengths: torch.Tensor  # (W,)
     doc: np.ndarray        # (W,) document index
     scored: list[np.ndarray]  # per window: positions to score
-
-
-def mlm_head(model: PreTrainedModel) -> torch.nn.Module | None:
-    """The module that maps hidden states to vocabulary logits: ``cls`` (BERT-like), ``lm_head`` (RoBERTa-like)."""
-    for name in ("cls", "lm_head"):
-        head = getattr(model, name, None)
-        if isinstance(head, torch.nn.Module):
-            return head
-    return None
 
 
 def _autocast(device: torch.device, precision: str) -> contextlib.AbstractContextManager:

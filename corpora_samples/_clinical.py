@@ -6,7 +6,7 @@ import random
 
 import _style
 import _world as W
-from _grammar import Grammar, tidy, word_count
+from _grammar import Grammar, redraw, tidy, word_count
 from _clinical_phrases import (  # noqa: F401
     SPECIALTIES, SPEC_WEIGHTS, SPEC_NAME, PC, HISTORY, EXAM, INVEST, PLAN, DIAGNOSES, NURSING,
     NURSING_SPEC, RADIOLOGY, TECHNIQUE, TECH_XRAY, INCIDENTAL, REFERRAL_OPEN, REFERRAL_FIRST,
@@ -284,13 +284,8 @@ GENRES = {
 
 def make_document(g: Grammar, genre: str, target: int | None = None,
                   lo: int = 80, hi: int = 400) -> str:
-    """One document of ``genre``; redrawn (deterministically) until its length is in [lo, hi]."""
-    for _ in range(10):
-        text = _make_once(g, genre, target)
-        if lo <= word_count(text) <= hi:
-            break
-        target = None
-    return text
+    """One document of ``genre`` with between lo and hi words."""
+    return redraw(_make_once, g, genre, target, lo, hi)
 
 
 def _make_once(g: Grammar, genre: str, target: int | None) -> str:

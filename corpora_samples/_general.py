@@ -6,7 +6,7 @@ import random
 
 import _style
 import _world as W
-from _grammar import Grammar, tidy, word_count
+from _grammar import Grammar, redraw, tidy, word_count
 
 CLUBS = ["Ostrelby Rovers", "Vennickford Athletic", "Brasselmoor Harriers", "Tillenhyde Wanderers",
          "Saldermere Town", "Pennagrave United", "Quistowe Albion", "Hollerdyke Mariners",
@@ -254,13 +254,8 @@ GENRES = {
 
 def make_document(g: Grammar, genre: str, target: int | None = None,
                   lo: int = 60, hi: int = 300) -> str:
-    """One document of ``genre``; redrawn (deterministically) until its length is in [lo, hi]."""
-    for _ in range(10):
-        text = _make_once(g, genre, target)
-        if lo <= word_count(text) <= hi:
-            break
-        target = None
-    return text
+    """One document of ``genre`` with between lo and hi words."""
+    return redraw(_make_once, g, genre, target, lo, hi)
 
 
 def _make_once(g: Grammar, genre: str, target: int | None) -> str:

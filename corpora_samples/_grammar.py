@@ -159,3 +159,13 @@ def word_count(text: str) -> int:
 
 
 SlotFn = Callable[[random.Random], str]
+
+
+def redraw(make_once, g: "Grammar", genre: str, target: int | None, lo: int, hi: int) -> str:
+    """One document from ``make_once``; redrawn (deterministically) until its length is in [lo, hi]."""
+    for _ in range(10):
+        text = make_once(g, genre, target)
+        if lo <= word_count(text) <= hi:
+            break
+        target = None
+    return text

@@ -6,7 +6,7 @@ import random
 
 import _style
 import _world as W
-from _grammar import Grammar, tidy, word_count
+from _grammar import Grammar, redraw, tidy, word_count
 from _legal_phrases import (  # noqa: F401
     AREAS, FACTS, REASONING, JUDGMENT_INTROS, CONCLUSIONS, APPEAL, TRIBUNAL, NOTICE_TYPES,
     NOTICE_EXTRA, CLAUSES, CLAUSE_INTROS, MEMO_OPEN, MEMO_BODY, MEMO_CLOSE, SI_INTROS,
@@ -308,13 +308,8 @@ AREA_BIAS = {
 
 def make_document(g: Grammar, genre: str, target: int | None = None,
                   lo: int = 80, hi: int = 400) -> str:
-    """One document of ``genre``; redrawn (deterministically) until its length is in [lo, hi]."""
-    for _ in range(10):
-        text = _make_once(g, genre, target)
-        if lo <= word_count(text) <= hi:
-            break
-        target = None
-    return text
+    """One document of ``genre`` with between lo and hi words."""
+    return redraw(_make_once, g, genre, target, lo, hi)
 
 
 def _make_once(g: Grammar, genre: str, target: int | None) -> str:

@@ -1,4 +1,4 @@
-"""Read text sets: a prepared corpus folder (its Parquet split), or loose .parquet/.jsonl/.txt files.
+"""Read text sets: a prepared corpus folder (its Parquet split), or loose files in any format prepare reads.
 
 This is the one reader every stage uses for the prepare stage's output contract:
 ``<corpus>/train/*.parquet`` and ``<corpus>/heldout/*.parquet`` with at least the columns ``id`` and ``text``.
@@ -6,7 +6,6 @@ This is the one reader every stage uses for the prepare stage's output contract:
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import pyarrow.parquet as pq
@@ -43,32 +42,17 @@ def read_texts(path: Path | str, split: str = "heldout", text_field: str = "text
     """Documents as dicts with ``id`` and ``text`` from a prepared corpus or from loose files."""
     path = Path(path)
     if not path.exists():
-        raise InputError(f"{path}: does not exist; give a prepared corpus folder or a .parquet/.jsonl/.txt file")
+        raise InputError(f"{path}: does not exist; give a prepared corpus folder or text files (.txt, .jsonl, .csv, .parquet, .gz)")
     if is_prepared_corpus(path):
         return [{"id": str(r.get("id", i)), "text": r["text"]}
                 for i, r in enumerate(read_prepared(path, split, columns=None))]
-    files = sorted(f for f in path.rglob("*") if f.is_file()) if path.is_dir() else [path]
-    docs: list[dict] = []
-    for f in files:
-        if f.suffix == ".parquet":
-            table = pq.read_table(f)
-            if text_field not in table.column_names:
-                raise InputError(f"{f}: no column {text_field!r}; set text_field to one of {table.column_names}")
-            docs += [{"id": f"{f.name}:{i}", "text": t} for i, t in enumerate(table.column(text_field).to_pylist())]
-        elif f.suffix == ".jsonl":
-            for i, line in enumerate(f.read_text(encoding="utf-8").splitlines()):
-                if not line.strip():
-                    continue
-                try:
-                    rec = json.loads(line)
-                except json.JSONDecodeError as exc:
-                    raise InputError(f"{f}:{i + 1}: not valid JSON ({exc.msg}); fix or remove that line") from exc
-                if text_field not in rec:
-                    raise InputError(f"{f}:{i + 1}: no field {text_field!r}; set text_field to the right name")
-                docs.append({"id": str(rec.get("id", f"{f.name}:{i}")), "text": str(rec[text_field])})
-        elif f.suffix == ".txt":
-            docs.append({"id": f.name, "text": f.read_text(encoding="utf-8")})
+    from adapt.config.prepare import ReadConfig
+    from adapt.corpus.readers import ReadStats, read_documents
+
+    # the prepare stage's reader: txt, jsonl, csv, parquet, gzip, fallback encoding, one-line errors
+    docs = [{"id": d.id, "text": d.text}
+            for d in read_documents([str(path)], ReadConfig(text_field=text_field), ReadStats())]
     docs = [d for d in docs if d["text"] and d["text"].strip()]
     if not docs:
-        raise InputError(f"{path}: no readable documents (.parquet, .jsonl or .txt with non-empty text)")
+        raise InputError(f"{path}: no readable documents (.txt, .jsonl, .csv, .parquet, optionally .gz, with non-empty text)")
     return docs

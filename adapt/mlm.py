@@ -16,7 +16,7 @@ from tqdm.auto import tqdm
 from adapt.adapters import unwrap_peft
 from adapt.batches import BatchCursor, PackedSequences
 from adapt.encoder import head_parameter_names
-from adapt.masking import IGNORE_INDEX, mask_tokens, step_seed
+from adapt.masking import IGNORE_INDEX, mask_tokens, replacement_ids, special_positions, step_seed
 
 log = logging.getLogger(__name__)
 
@@ -61,15 +61,13 @@ class MaskingPlan:
     """Everything masking needs from the tokenizer and config, bound once."""
 
     def __init__(self, tokenizer, rate: float, mask_share: float, random_share: float):
-        from adapt.masking import replacement_ids
-
         self.special_ids = sorted(set(tokenizer.all_special_ids))
         self.mask_token_id = tokenizer.mask_token_id
         self.random_ids = replacement_ids(len(tokenizer), self.special_ids)
         self.rate, self.mask_share, self.random_share = rate, mask_share, random_share
 
     def apply(self, input_ids: torch.Tensor, attention_mask: torch.Tensor, generator: torch.Generator):
-        special = torch.isin(input_ids, torch.tensor(self.special_ids)) | (attention_mask == 0)
+        special = special_positions(input_ids, self.special_ids) | (attention_mask == 0)
         return mask_tokens(input_ids, special, rate=self.rate, mask_share=self.mask_share,
                            random_share=self.random_share, mask_token_id=self.mask_token_id,
                            random_ids=self.random_ids, generator=generator)

@@ -33,7 +33,7 @@ from transformers import PreTrainedModel, PreTrainedTokenizerBase
 
 from adapt.config.score import VARIANTS
 from adapt.errors import ConfigError
-from adapt.mlm import mlm_head
+from adapt.mlm import encoder_body, mlm_head
 
 log = logging.getLogger(__name__)
 
@@ -83,8 +83,7 @@ def position_log_probs(model: PreTrainedModel, input_ids: torch.Tensor, attentio
     rows = torch.arange(input_ids.shape[0], device=input_ids.device)
     with torch.inference_mode(), _autocast(input_ids.device, precision):
         if head is not None:
-            body = getattr(model, model.base_model_prefix)
-            hidden = body(input_ids=input_ids, attention_mask=attention_mask)[0]  # (B, L, H)
+            hidden = encoder_body(model)(input_ids=input_ids, attention_mask=attention_mask)[0]  # (B, L, H)
             logits = head(hidden[rows, positions])  # (B, V)
         else:
             logits = model(input_ids=input_ids, attention_mask=attention_mask).logits[rows, positions]  # (B, V)

@@ -178,10 +178,9 @@ def run(cfg: CompareJob) -> dict:
     """Fine-tune and evaluate every arm × seed, run the paired tests, write the outputs."""
     task = read_task(cfg.task.dir, cfg.task.text_field, cfg.task.label_field)
     checkpoints = {arm: resolve_checkpoint(arm, cfg.arms[arm]) for arm in _ordered_arms(cfg)}
-    import torch
+    from adapt.runtime import apply_threads  # imports torch: only after the inputs were checked
 
-    if cfg.runtime.num_threads > 0:
-        torch.set_num_threads(cfg.runtime.num_threads)
+    apply_threads(cfg.runtime)
     folder = RunFolder(cfg.out_dir, "compare", cfg, inputs=task.files + [Path(c) for c in checkpoints.values()],
                        seed=cfg.significance.seed)
     try:

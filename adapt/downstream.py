@@ -24,6 +24,7 @@ from transformers import AutoConfig, AutoModel, AutoTokenizer, PreTrainedTokeniz
 from adapt.config.common import RuntimeConfig
 from adapt.config.compare import FinetuneConfig
 from adapt.errors import InputError
+from adapt.runtime import resolve_device
 from adapt.tasks import Task
 
 log = logging.getLogger(__name__)
@@ -84,12 +85,6 @@ class MeanPoolClassifier(torch.nn.Module):
     def forward(self, input_ids: torch.Tensor, attention_mask: torch.Tensor) -> torch.Tensor:
         hidden = self.body(input_ids=input_ids, attention_mask=attention_mask).last_hidden_state  # (B, T, H)
         return self.head(self.dropout(mean_pool(hidden, attention_mask)))  # (B, num_labels)
-
-
-def resolve_device(runtime: RuntimeConfig) -> torch.device:
-    if runtime.device == "auto":
-        return torch.device("cuda" if torch.cuda.is_available() else "cpu")
-    return torch.device(runtime.device)
 
 
 def autocast_for(runtime: RuntimeConfig, device: torch.device):

@@ -28,16 +28,15 @@ from adapt.masking import step_seed
 from adapt.mlm import FixedMaskEval, MaskedOnlyMlm, MaskingPlan, warm_up_head
 from adapt.pretrain_outputs import export_checkpoint, measure_pppl, write_model_card
 from adapt.runs import MetricsLog, RunFolder, atomic_write_json
+from adapt.runtime import apply_threads, resolve_device
 from adapt.textsets import read_prepared
 
 log = logging.getLogger(__name__)
 
 
 def _accelerator(cfg: PretrainJob) -> Accelerator:
-    cpu = cfg.runtime.device == "cpu" or (cfg.runtime.device == "auto" and not torch.cuda.is_available())
-    if cfg.runtime.num_threads:
-        torch.set_num_threads(cfg.runtime.num_threads)
-    return Accelerator(cpu=cpu, mixed_precision="bf16" if cfg.runtime.precision == "bf16" else "no")
+    apply_threads(cfg.runtime)
+    return Accelerator(cpu=resolve_device(cfg.runtime).type == "cpu", mixed_precision="bf16" if cfg.runtime.precision == "bf16" else "no")
 
 
 def _load_split(corpus_dir: str, split: str, tokenizer, cfg: PretrainJob, key: str):

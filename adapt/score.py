@@ -22,6 +22,7 @@ from adapt.encoder import HeadReport, load_mlm, load_tokenizer, resolve_encoder_
 from adapt.errors import InputError
 from adapt.pppl import DocScores, bootstrap_ci, pseudo_perplexity, score_documents
 from adapt.runs import RunFolder, atomic_write_json
+from adapt.runtime import apply_threads, resolve_device
 from adapt.textsets import read_texts
 
 log = logging.getLogger(__name__)
@@ -44,12 +45,6 @@ def _refuse_untrained_head(cfg: ScoreJob, report: HeadReport) -> None:
     raise InputError(f"encoder.name_or_path={cfg.encoder.name_or_path}: the MLM head is untrained "
                      f"({len(report.missing)} weights initialised at random, e.g. {report.missing[0]}), so its "
                      f"pseudo-perplexity is meaningless; {hint}, or set allow_untrained_head=true to measure anyway")
-
-
-def _device(name: str) -> torch.device:
-    if name == "auto":
-        return torch.device("cuda" if torch.cuda.is_available() else "cpu")
-    return torch.device(name)
 
 
 def select_documents(docs: list[dict], max_docs: int, max_tokens: int, seed: int) -> list[dict]:
@@ -87,8 +82,7 @@ def _summary(result: dict) -> list[str]:
 
 def run(cfg: ScoreJob) -> dict:
     """Score cfg.encoder on cfg.texts; write scores.json and manifest.json; return the result with a summary."""
-    if cfg.runtime.num_threads:
-        torch.set_num_threads(cfg.runtime.num_threads)
+    apply_threads(cfg.runtime)
     texts_path = Path(cfg.texts)
     docs = read_texts(texts_path, cfg.split)  # raises InputError naming the path
     encoder_path = resolve_encoder_path(cfg.encoder.name_or_path)
@@ -107,7 +101,7 @@ def run(cfg: ScoreJob) -> dict:
         vocab_hash = vocab_sha256(tokenizer)
         log.warning("pseudo-perplexity depends on the tokenizer: compare it only with figures whose "
                     "tokenizer_vocab_sha256 is %s…", vocab_hash[:12])
-        scores = score_documents(model.to(_device(cfg.runtime.device)), tokenizer, [d["text"] for d in chosen],
+        scores = score_documents(model.to(resolve_device(cfg.runtime)), tokenizer, [d["text"] for d in chosen],
                                  max_seq_len=cfg.encoder.max_seq_len, batch_size=cfg.batch_size,
                                  variant=cfg.variant, precision=cfg.runtime.precision,
                                  progress=cfg.runtime.progress, max_tokens=cfg.max_tokens)

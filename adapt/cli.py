@@ -21,7 +21,7 @@ import hydra  # noqa: E402
 from omegaconf import DictConfig  # noqa: E402
 
 from adapt.config import CONF_DIR, register_schemas, to_job
-from adapt.errors import UserError  # noqa: E402
+from adapt.common.errors import UserError  # noqa: E402
 
 EXIT_USER_ERROR = 2
 _HYDRA_FLAGS_WITHOUT_CHECK = ("-m", "--multirun", "--help", "-h", "--hydra-help", "--cfg", "-c", "--info",
@@ -99,20 +99,20 @@ def _launch(job: str, module: str) -> None:
 
 
 def prepare_main() -> None:
-    _launch("prepare", "adapt.corpus.prepare")
+    _launch("prepare", "adapt.stages.prepare")
 
 
 def pretrain_main() -> None:
-    _launch("pretrain", "adapt.pretrain")
+    _launch("pretrain", "adapt.stages.pretrain")
 
 
 def score_main() -> None:
-    _launch("score", "adapt.score")
+    _launch("score", "adapt.stages.score")
 
 
 def compare_main() -> None:
-    _launch("compare", "adapt.compare")
+    _launch("compare", "adapt.stages.compare")
 
 
 def demo_main() -> None:
-    _launch("demo", "adapt.demo")
+    _launch("demo", "adapt.stages.demo")

@@ -19,8 +19,8 @@ import torch
 import transformers
 
 from adapt.config.common import EncoderConfig
-from adapt.encoder import load_mlm, load_tokenizer
-from adapt.pppl import pseudo_perplexity, score_documents
+from adapt.training.encoder import load_mlm, load_tokenizer
+from adapt.evaluation.pppl import pseudo_perplexity, score_documents
 
 # Invented text in the style of the project's sample domains.
 TEXTS = [

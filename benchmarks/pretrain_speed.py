@@ -15,8 +15,8 @@ import torch
 import transformers
 
 from adapt.config.common import EncoderConfig
-from adapt.encoder import load_mlm, load_tokenizer
-from adapt.mlm import MaskedOnlyMlm, MaskingPlan
+from adapt.training.encoder import load_mlm, load_tokenizer
+from adapt.training.mlm_loss import MaskedOnlyMlm, MaskingPlan
 
 BATCH, SEQ, STEPS, WARM = 16, 128, 6, 2
 

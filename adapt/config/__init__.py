@@ -6,6 +6,7 @@ raising one ``ConfigError`` that lists all problems. Library code only ever sees
 
 from __future__ import annotations
 
+import importlib.util
 import os
 from dataclasses import dataclass
 from pathlib import Path
@@ -15,9 +16,20 @@ from hydra.core.config_store import ConfigStore
 from omegaconf import DictConfig, OmegaConf
 
 from adapt.config import compare, demo, prepare, pretrain, score
-from adapt.errors import Problems
+from adapt.common.errors import Problems
 
-CONF_DIR = Path(__file__).resolve().parent.parent / "conf"
+
+
+def _conf_dir() -> Path:
+    """The conf/ folder: top of the checkout in an editable install, ``adapt/conf`` inside a wheel."""
+    spec = importlib.util.find_spec("adapt.conf")
+    if spec is None or not spec.submodule_search_locations:
+        raise RuntimeError("the package adapt.conf (the Hydra configs) is missing from this installation; "
+                           "reinstall the tool")
+    return Path(list(spec.submodule_search_locations)[0])
+
+
+CONF_DIR = _conf_dir()
 
 
 @dataclass(frozen=True)

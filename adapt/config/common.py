@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any, Optional
 
-from adapt.errors import Problems
+from adapt.common.errors import Problems
 
 PACKAGED_ENCODER = "packaged:all-minilm-l6-v2"
 

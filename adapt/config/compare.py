@@ -6,7 +6,7 @@ import math
 from dataclasses import dataclass, field
 
 from adapt.config.common import RuntimeConfig, validate_runtime
-from adapt.errors import Problems
+from adapt.common.errors import Problems
 
 TFIDF_ARM = "tfidf"
 # test metrics every arm reports and the paired tests compare; the verdict uses significance.primary_metric

@@ -8,7 +8,7 @@ from adapt.config import compare as compare_cfg
 from adapt.config import prepare as prepare_cfg
 from adapt.config import pretrain as pretrain_cfg
 from adapt.config import score as score_cfg
-from adapt.errors import Problems
+from adapt.common.errors import Problems
 
 
 @dataclass

@@ -11,7 +11,7 @@ from pathlib import Path
 from typing import Optional
 
 from adapt.config.common import EncoderConfig, validate_encoder
-from adapt.errors import Problems
+from adapt.common.errors import Problems
 
 LANGUAGES = ("en", "es")
 DOMAINS = ("general", "legal", "clinical")

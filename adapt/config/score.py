@@ -5,8 +5,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from adapt.config.common import EncoderConfig, RuntimeConfig, validate_encoder, validate_runtime
-from adapt.errors import Problems
-from adapt.textsets import SPLITS
+from adapt.common.errors import Problems
+from adapt.contracts.prepared_corpus import SPLITS
 
 # Scoring variants of adapt.pppl: "token" masks one token per copy (Salazar et al. 2020); "word_l2r" also masks
 # the later pieces of the same word (PLL-word-l2r, Kauf & Ivanova 2023).

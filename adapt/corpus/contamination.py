@@ -16,7 +16,7 @@ import numpy as np
 from adapt.config.prepare import TASK_SPLITS, ContaminationConfig
 from adapt.corpus.minhash import Shingler
 from adapt.corpus.readers import file_kind, read_labelled_file
-from adapt.errors import InputError
+from adapt.common.errors import InputError
 
 log = logging.getLogger(__name__)
 

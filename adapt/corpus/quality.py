@@ -29,7 +29,7 @@ from adapt.config.prepare import QualityConfig
 from adapt.corpus.cleaning import normalise_text
 from adapt.corpus.readers import read_labelled_file
 from adapt.corpus.stopwords import STOPWORDS
-from adapt.errors import InputError
+from adapt.common.errors import InputError
 
 log = logging.getLogger(__name__)
 

@@ -23,7 +23,7 @@ from typing import Iterator
 import pyarrow.parquet as pq
 
 from adapt.config.prepare import ReadConfig
-from adapt.errors import InputError
+from adapt.common.errors import InputError
 
 log = logging.getLogger(__name__)
 

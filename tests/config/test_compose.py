@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from adapt.config import CONF_DIR, JOBS, compose_job
-from adapt.errors import ConfigError
+from adapt.common.errors import ConfigError
 
 REQUIRED = {"prepare": ["inputs=[x]"], "pretrain": ["corpus_dir=x"], "score": ["texts=x"],
             "compare": ["+arms.base=x"], "demo": []}
@@ -34,7 +34,7 @@ def test_every_group_option_composes(group, option):
 
 
 JOB_GROUPS = [(job, group.name, option.stem) for job in sorted(JOBS)
-              for group in sorted((CONF_DIR.parent / "jobconf" / job).iterdir()) if group.is_dir()
+              for group in sorted((CONF_DIR / job).iterdir()) if group.is_dir()
               for option in sorted(group.glob("*.yaml"))]
 
 
@@ -47,15 +47,8 @@ def test_job_specific_options_exist():
     assert ("prepare", "preset", "clinical") in JOB_GROUPS and ("demo", "debug", "tiny") in JOB_GROUPS
 
 
-@pytest.mark.parametrize("option", _options("experiment"))
-def test_every_experiment_composes(option):
-    for job in ("pretrain", "compare"):
-        try:
-            compose_job(job, REQUIRED[job] + [f"experiment={option}"])
-            return
-        except Exception:
-            continue
-    pytest.fail(f"experiment/{option}.yaml composes with no job")
+def test_experiments_are_covered():
+    assert ("pretrain", "experiment", "legal_lora") in JOB_GROUPS
 
 
 def test_bad_values_are_collected_into_one_error():

@@ -12,9 +12,9 @@ import numpy as np
 import pytest
 from sklearn.metrics import accuracy_score, f1_score
 
-from adapt.compare import run
+from adapt.stages.compare import run
 from adapt.config import compose_job
-from adapt.errors import ConfigError, InputError
+from adapt.common.errors import ConfigError, InputError
 from tests.conftest import TINY_WORDS, build_tiny_encoder
 
 LEGAL = "court tenant landlord notice contract clause appeal judgment claim rent".split()

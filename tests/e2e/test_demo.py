@@ -11,7 +11,7 @@ from adapt.config import compose_job
 
 
 def test_demo_chain_runs_on_the_samples(tmp_path):
-    from adapt.demo import run
+    from adapt.stages.demo import run
 
     cfg = compose_job("demo", ["debug=tiny", f"out_dir={tmp_path / 'demo'}", "pretrain.runtime.progress=false",
                                "compare.runtime.progress=false", "score.runtime.progress=false",
@@ -30,7 +30,7 @@ def test_demo_chain_runs_on_the_samples(tmp_path):
 
 @pytest.mark.slow
 def test_packaged_encoder_head_is_detected_and_warmed_up(tmp_path):
-    from adapt.pretrain import run
+    from adapt.stages.pretrain import run
     from tests.e2e.test_pretrain import write_prepared
 
     corpus = write_prepared(tmp_path / "corpus", n_train=24, n_heldout=4)

@@ -14,9 +14,9 @@ import pytest
 from stdnum import iban as std_iban
 
 from adapt.config.prepare import PrepareJob
-from adapt.corpus.prepare import run
-from adapt.errors import InputError
-from adapt.textsets import read_prepared
+from adapt.stages.prepare import run
+from adapt.common.errors import InputError
+from adapt.contracts.prepared_corpus import read_prepared
 
 WORDS = ("tenant landlord notice rent arrears court hearing judgment appeal contract clause breach damages claim "
          "evidence witness order deposit lease repair covenant tribunal possession months payment party agent "

@@ -13,7 +13,7 @@ import torch
 from safetensors.torch import load_file
 
 from adapt.config import compose_job
-from adapt.pretrain import run
+from adapt.stages.pretrain import run
 
 WORDS = ("the court tenant landlord notice contract clause appeal judgment patient ward dose nurse scan "
          "report claim rent months of and to a in is was for on by with").split()
@@ -88,7 +88,7 @@ def test_four_steps_equal_two_plus_resume_plus_two(tmp_path, tiny_encoder):
 
 def test_resume_never_refuses_an_existing_run(tmp_path, tiny_encoder):
     run(tiny_cfg(tmp_path, tiny_encoder, "run", "schedule.stop_after_steps=2"))
-    from adapt.errors import ConfigError
+    from adapt.common.errors import ConfigError
 
     with pytest.raises(ConfigError, match="resume=never"):
         run(tiny_cfg(tmp_path, tiny_encoder, "run", "resume=never"))

@@ -15,9 +15,9 @@ import pytest
 import torch
 
 from adapt.config import compose_job
-from adapt.errors import ConfigError, InputError
-from adapt.runs import hash_file
-from adapt.score import run
+from adapt.common.errors import ConfigError, InputError
+from adapt.common.io import hash_file
+from adapt.stages.score import run
 
 DOCS = [
     "The tenant gave notice to the landlord in March.",

@@ -6,9 +6,9 @@ import pytest
 import torch
 from transformers import AutoModelForMaskedLM
 
-from adapt.adapters import ADAPTERS, build_adapter, count_trainable
+from adapt.training.adapters import ADAPTERS, build_adapter, count_trainable
 from adapt.config.pretrain import AdapterConfig
-from adapt.encoder import head_parameter_names
+from adapt.training.encoder import head_parameter_names
 
 
 def _expected_trainable(model, kind: str, cfg: AdapterConfig) -> int:
@@ -53,3 +53,10 @@ def test_adapter_contract(tmp_path, tiny_encoder, kind):
     with torch.no_grad():
         after = reloaded(input_ids=ids).logits
     assert torch.allclose(before, after, atol=1e-5)
+
+
+def test_config_names_every_registered_adapter():
+    # the config validates adapter.kind without importing torch, so it keeps its own list of names
+    from adapt.config.pretrain import ADAPTER_KINDS
+
+    assert sorted(ADAPTER_KINDS) == sorted(ADAPTERS)

@@ -8,7 +8,7 @@ import pytest
 
 from adapt.config import compose_job
 from adapt.config.prepare import PrepareJob
-from adapt.errors import ConfigError
+from adapt.common.errors import ConfigError
 
 BASE = ["inputs=[some/folder]"]
 

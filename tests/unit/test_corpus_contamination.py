@@ -9,7 +9,7 @@ import pytest
 
 from adapt.corpus.contamination import TaskIndex, TaskText, find_overlaps, load_task_texts
 from adapt.corpus.minhash import Shingler
-from adapt.errors import InputError
+from adapt.common.errors import InputError
 
 VOCAB = [f"v{i}" for i in range(2000)]
 

@@ -9,7 +9,7 @@ import pytest
 
 from adapt.config.prepare import QualityConfig
 from adapt.corpus.quality import heuristic_model, train_quality_model
-from adapt.errors import InputError
+from adapt.common.errors import InputError
 
 CONTENT = ("tenant landlord notice rent arrears court hearing judgment appeal contract clause breach damages "
            "patient ward discharge dose nurse referral scan letter claim evidence witness order").split()

@@ -11,7 +11,7 @@ import pytest
 
 from adapt.config.prepare import ReadConfig
 from adapt.corpus.readers import ReadStats, read_documents, read_labelled_file
-from adapt.errors import InputError
+from adapt.common.errors import InputError
 
 
 def _read(paths, **kw) -> tuple[list, ReadStats]:

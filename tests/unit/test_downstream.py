@@ -14,9 +14,9 @@ from sklearn.metrics import accuracy_score, f1_score
 
 from adapt.config.common import RuntimeConfig
 from adapt.config.compare import FinetuneConfig
-from adapt.downstream import check_checkpoint, finetune, load_classifier, mean_pool, score, tfidf_baseline
-from adapt.errors import InputError
-from adapt.tasks import read_task
+from adapt.evaluation.finetune import check_checkpoint, finetune, load_classifier, mean_pool, score, tfidf_baseline
+from adapt.common.errors import InputError
+from adapt.contracts.labelled_task import read_task
 from tests.conftest import TINY_WORDS, build_tiny_encoder
 
 LEGAL = "court tenant landlord notice contract clause appeal judgment claim rent".split()

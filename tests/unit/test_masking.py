@@ -5,7 +5,8 @@ from __future__ import annotations
 
 import torch
 
-from adapt.masking import IGNORE_INDEX, mask_tokens, replacement_ids, step_seed
+from adapt.common.seeding import step_seed
+from adapt.training.masking import IGNORE_INDEX, mask_tokens, replacement_ids
 
 VOCAB, MASK_ID, SPECIAL = 1000, 4, [0, 1, 2, 3, 4]
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import torch
 from transformers import AutoModelForMaskedLM, AutoTokenizer
 
-from adapt.mlm import MaskedOnlyMlm, MaskingPlan
+from adapt.training.mlm_loss import MaskedOnlyMlm, MaskingPlan
 
 
 def _batch(tokenizer, seed=0):

@@ -17,8 +17,8 @@ import torch
 from tests.conftest import build_tiny_encoder
 from transformers import AutoModelForMaskedLM, AutoTokenizer
 
-from adapt.errors import ConfigError
-from adapt.pppl import (DocScores, bootstrap_ci, position_log_probs, pseudo_perplexity, score_documents)
+from adapt.common.errors import ConfigError
+from adapt.evaluation.pppl import (DocScores, bootstrap_ci, position_log_probs, pseudo_perplexity, score_documents)
 
 TEXTS = [
     "the tenant gave notice to the landlord",

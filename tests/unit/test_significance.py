@@ -8,7 +8,7 @@ from scipy import stats
 from sklearn.metrics import f1_score
 from statsmodels.stats.contingency_tables import mcnemar
 
-from adapt.significance import (compare_pair, macro_f1_from_counts, majority_vote, mcnemar_exact, paired_bootstrap,
+from adapt.evaluation.significance import (compare_pair, macro_f1_from_counts, majority_vote, mcnemar_exact, paired_bootstrap,
                                 paired_permutation, summarize, verdict)
 
 

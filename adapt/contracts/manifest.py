@@ -1,0 +1,50 @@
+"""``manifest.json``: the record every job leaves in its output folder.
+
+It holds the tool version, resolved config, input file hashes, start/end time, host and seed, so any reported
+number can be traced to what produced it. ``RunFolder`` is its one writer.
+"""
+
+from __future__ import annotations
+
+import platform
+import socket
+from pathlib import Path
+from typing import Any, Iterable
+
+from adapt import __version__
+from adapt.common.io import atomic_write_json, hash_inputs, now_utc, read_json, to_jsonable
+
+MANIFEST = "manifest.json"
+
+
+class RunFolder:
+    """An output folder with its manifest. ``finish()`` stamps the end time and the outcome."""
+
+    def __init__(self, out_dir: Path | str, job: str, config: Any, inputs: Iterable[Path | str], seed: int | None):
+        self.path = Path(out_dir)
+        self.path.mkdir(parents=True, exist_ok=True)
+        self.manifest_path = self.path / MANIFEST
+        previous = read_json(self.manifest_path) if self.manifest_path.exists() else {}
+        self.manifest: dict[str, Any] = {
+            "tool": "adapt",
+            "tool_version": __version__,
+            "job": job,
+            "config": to_jsonable(config),
+            "inputs": hash_inputs(inputs),
+            "seed": seed,
+            "host": socket.gethostname(),
+            "platform": platform.platform(),
+            "python": platform.python_version(),
+            "started": now_utc(),
+            "ended": None,
+            "status": "running",
+            "sessions": previous.get("sessions", []) + [{"started": now_utc()}],
+        }
+        atomic_write_json(self.manifest_path, self.manifest)
+
+    def finish(self, status: str = "completed", **extra: Any) -> None:
+        self.manifest["ended"] = now_utc()
+        self.manifest["status"] = status
+        self.manifest["sessions"][-1]["ended"] = self.manifest["ended"]
+        self.manifest.update(to_jsonable(extra))
+        atomic_write_json(self.manifest_path, self.manifest)

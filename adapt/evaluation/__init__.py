@@ -1,0 +1,1 @@
+"""Measuring models: pseudo-perplexity, fine-tuning, TF-IDF baseline, statistics."""

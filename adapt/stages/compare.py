@@ -1,0 +1,206 @@
+"""The compare job: fine-tune every arm × seed on a labelled task, test the differences, state a verdict.
+
+Writes into ``out_dir``: ``comparison.json`` (per arm × seed metrics, seed summaries, paired tests, verdicts),
+``predictions.jsonl`` (one line per test example: gold label and every arm's prediction per seed),
+``comparison.md`` (a readable summary) and ``manifest.json``.
+"""
+
+from __future__ import annotations
+
+import json
+import logging
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from adapt.config.common import PACKAGED_ENCODER
+from adapt.config.compare import METRIC_NAMES, METRICS, TFIDF_ARM, CompareJob
+from adapt.common.errors import InputError
+from adapt.contracts.manifest import RunFolder
+from adapt.common.io import atomic_write_json, atomic_write_text
+from adapt.contracts.labelled_task import Task, read_task
+
+# torch, transformers, scikit-learn and scipy are imported only after the inputs have been checked, so that a
+# wrong path fails within a second or two instead of after the slow imports
+if TYPE_CHECKING:
+    from adapt.evaluation.finetune import ArmResult
+
+log = logging.getLogger(__name__)
+
+CAUTION = ("These are research measurements on a benchmark task, not legal or medical advice; before any use "
+           "in legal or clinical decisions follow your institution's validation and governance processes.")
+
+
+def resolve_checkpoint(arm: str, name_or_path: str) -> str:
+    """Folder of an arm's checkpoint: the packaged alias, a model folder, or a pretrain run folder's final/."""
+    if name_or_path == PACKAGED_ENCODER:
+        from adapt.training.encoder import resolve_encoder_path
+
+        name_or_path = resolve_encoder_path(name_or_path)
+    path = Path(name_or_path)
+    if not (path / "config.json").is_file() and (path / "final" / "config.json").is_file():
+        log.info("arms.%s: using %s", arm, path / "final")
+        path = path / "final"
+    if not path.is_dir():
+        raise InputError(f"arms.{arm}={name_or_path}: folder does not exist; give a checkpoint folder, a pretrain "
+                         f"run folder with final/, or packaged:all-minilm-l6-v2")
+    if not (path / "config.json").is_file():
+        raise InputError(f"arms.{arm}={name_or_path}: no config.json in the folder; give a checkpoint folder "
+                         f"(config.json, weights, tokenizer files) or a pretrain run folder with final/")
+    return str(path)
+
+
+def _ordered_arms(cfg: CompareJob) -> list[str]:
+    return [cfg.reference_arm] + [a for a in cfg.arms if a != cfg.reference_arm]
+
+
+def _run_arms(cfg: CompareJob, task: Task, checkpoints: dict[str, str]) -> dict[str, list[ArmResult]]:
+    from tqdm.auto import tqdm
+
+    from adapt.evaluation.finetune import check_checkpoint, finetune, tfidf_baseline
+
+    for arm, path in checkpoints.items():  # fail before any training if a tokenizer or config is unusable
+        check_checkpoint(path, arm)
+    results: dict[str, list[ArmResult]] = {}
+    runs = [(arm, seed) for arm in _ordered_arms(cfg) for seed in cfg.seeds]
+    for i, (arm, seed) in enumerate(tqdm(runs, desc="compare", unit="run", disable=not cfg.runtime.progress), 1):
+        res = finetune(checkpoints[arm], task, cfg.finetune, cfg.task.max_seq_len, seed, cfg.runtime, arm=arm)
+        log.info("[%d/%d] %s seed %d: test accuracy %.3f, macro-F1 %.3f (epoch %d, %.1f s)", i, len(runs), arm,
+                 seed, res.test_accuracy, res.test_macro_f1, res.selected_epoch, res.seconds)
+        results.setdefault(arm, []).append(res)
+    if cfg.tfidf_baseline:
+        res = tfidf_baseline(task, list(cfg.tfidf_c_values))
+        log.info("%s: test accuracy %.3f, macro-F1 %.3f (C=%g)", TFIDF_ARM, res.test_accuracy, res.test_macro_f1,
+                 res.details["C"])
+        results[TFIDF_ARM] = [res]
+    return results
+
+
+def _arm_record(checkpoint: str, runs: list[ArmResult], confidence: float) -> dict:
+    from adapt.evaluation.significance import summarize
+
+    rec: dict = {"checkpoint": checkpoint, "per_seed": [r.row() for r in runs]}
+    for m in METRICS:
+        for split in ("test", "dev"):
+            rec[f"{split}_{m}"] = summarize([getattr(r, f"{split}_{m}") for r in runs], confidence, bounds=(0, 1))
+    rec["history"] = [r.history for r in runs if r.history]
+    return rec
+
+
+def _tests(cfg: CompareJob, task: Task, results: dict[str, list[ArmResult]]) -> tuple[dict, dict]:
+    from adapt.evaluation.significance import compare_pair, verdict
+
+    sig = cfg.significance
+    ref = results[cfg.reference_arm]
+    tests, verdicts = {}, {}
+    for arm in _ordered_arms(cfg)[1:]:
+        runs = results[arm]
+        pair = compare_pair(task.test.label_ids, [r.test_predictions for r in runs],
+                            [r.test_predictions for r in ref],
+                            {m: [getattr(r, f"test_{m}") for r in runs] for m in METRICS},
+                            {m: [getattr(r, f"test_{m}") for r in ref] for m in METRICS},
+                            confidence=sig.confidence, bootstrap_resamples=sig.bootstrap_resamples,
+                            permutation_resamples=sig.permutation_resamples, seed=sig.seed)
+        key = f"{arm} vs {cfg.reference_arm}"
+        tests[key] = {"arm": arm, "reference": cfg.reference_arm, **pair}
+        verdicts[key] = verdict(pair, arm, cfg.reference_arm, sig.primary_metric, sig.min_seeds)
+        log.info("%s", verdicts[key]["text"])
+    return tests, verdicts
+
+
+def _write_predictions(path: Path, task: Task, results: dict[str, list[ArmResult]]) -> None:
+    # texts are left out on purpose: task files may hold sensitive text; the index points back into test
+    lines = []
+    for i, gold in enumerate(task.test.label_ids):
+        pred = {arm: [task.labels[r.test_predictions[i]] for r in runs] for arm, runs in results.items()}
+        seeds = {arm: [r.seed for r in runs] for arm, runs in results.items()}
+        lines.append(json.dumps({"index": i, "gold": task.labels[gold], "predicted": pred, "seeds": seeds},
+                                ensure_ascii=False))
+    atomic_write_text(path, "\n".join(lines) + "\n")
+
+
+def _pm(stat: dict) -> str:
+    return f"{stat['mean']:.3f} ± {stat['sd']:.3f}" if stat["sd"] is not None else f"{stat['mean']:.3f}"
+
+
+def _ci(stat: dict) -> str:
+    return f"{stat['ci_low']:.3f} to {stat['ci_high']:.3f}" if stat["ci_low"] is not None else "n/a"
+
+
+def summary_lines(doc: dict) -> list[str]:
+    width = max(len(a) for a in doc["arms"])
+    lines = []
+    for arm, rec in doc["arms"].items():
+        n = len(rec["per_seed"])
+        runs = "deterministic" if arm == TFIDF_ARM else f"{n} seed{'s' if n != 1 else ''}"
+        lines.append(f"{arm:<{width}}  accuracy {_pm(rec['test_accuracy'])}  macro-F1 {_pm(rec['test_macro_f1'])} "
+                     f"({runs})")
+    for v in doc["verdict"].values():
+        lines.append(f"verdict: {v['text']}")
+        lines.extend(f"  caution: {c}" for c in v["cautions"])
+    return lines
+
+
+def render_markdown(doc: dict) -> str:
+    conf = round(100 * doc["confidence"])
+    t = doc["task"]
+    out = ["# Comparison of fine-tuned arms", "",
+           f"Task `{t['dir']}`: {len(t['labels'])} labels ({', '.join(t['labels'])}); sizes "
+           + ", ".join(f"{k} {v}" for k, v in t["sizes"].items()) + f". Seeds: {doc['seeds']}.", "",
+           f"| arm | test accuracy (mean ± sd) | {conf}% CI | test macro-F1 (mean ± sd) | {conf}% CI | runs |",
+           "|---|---|---|---|---|---|"]
+    for arm, rec in doc["arms"].items():
+        a, f = rec["test_accuracy"], rec["test_macro_f1"]
+        out.append(f"| {arm} | {_pm(a)} | {_ci(a)} | {_pm(f)} | {_ci(f)} | {len(rec['per_seed'])} |")
+    out += ["", "CIs over seeds are t-intervals (too few seeds give wide or no intervals).", "",
+            "## Paired tests on the test examples", ""]
+    for key, pair in doc["tests"].items():
+        out += [f"### {key}", "", f"| metric | difference | {conf}% bootstrap CI | bootstrap p (better) | "
+                f"permutation p (better) | permutation p (worse) |", "|---|---|---|---|---|---|"]
+        for m in METRICS:
+            b, p = pair["bootstrap"][m], pair["permutation"][m]
+            out.append(f"| {METRIC_NAMES[m]} | {b['difference']:+.3f} | {b['ci_low']:+.3f} to {b['ci_high']:+.3f} "
+                       f"| {b['p_better']:.3g} | {p['p_better']:.3g} | {p['p_worse']:.3g} |")
+        mc = pair["mcnemar_majority_vote"]
+        out += ["", f"McNemar exact test on majority-vote correctness: {mc['only_a_correct']} examples only "
+                f"{pair['arm']} got right, {mc['only_b_correct']} only {pair['reference']}; p = {mc['p_value']:.3g}. "
+                "Per seed: "
+                + ", ".join(f"{x['p_value']:.3g}" for x in pair["mcnemar_per_seed"]) + ".", ""]
+    out += ["## Verdict", ""]
+    for v in doc["verdict"].values():
+        out.append(f"- **{v['pair']}**: {v['text']}")
+        out.extend(f"  - caution: {c}" for c in v["cautions"])
+    if not doc["verdict"]:
+        out.append("- no comparison: only the reference arm was fine-tuned")
+    out += ["", f"> {CAUTION}", ""]
+    return "\n".join(out)
+
+
+def run(cfg: CompareJob) -> dict:
+    """Fine-tune and evaluate every arm × seed, run the paired tests, write the outputs."""
+    task = read_task(cfg.task.dir, cfg.task.text_field, cfg.task.label_field)
+    checkpoints = {arm: resolve_checkpoint(arm, cfg.arms[arm]) for arm in _ordered_arms(cfg)}
+    from adapt.common.runtime import apply_threads  # imports torch: only after the inputs were checked
+
+    apply_threads(cfg.runtime)
+    folder = RunFolder(cfg.out_dir, "compare", cfg, inputs=task.files + [Path(c) for c in checkpoints.values()],
+                       seed=cfg.significance.seed)
+    try:
+        results = _run_arms(cfg, task, checkpoints)
+        tests, verdicts = _tests(cfg, task, results)
+    except BaseException:
+        folder.finish(status="failed")
+        raise
+    conf = cfg.significance.confidence
+    doc = {"task": {"dir": str(task.dir), "labels": task.labels, "sizes": task.sizes,
+                    "files": [str(f) for f in task.files]},
+           "seeds": list(cfg.seeds), "confidence": conf, "reference_arm": cfg.reference_arm,
+           "arms": {arm: _arm_record(checkpoints.get(arm, "tfidf+logistic-regression"), runs, conf)
+                    for arm, runs in results.items()},
+           "tests": tests, "verdict": verdicts, "caution": CAUTION}
+    out = Path(cfg.out_dir)
+    atomic_write_json(out / "comparison.json", doc)
+    _write_predictions(out / "predictions.jsonl", task, results)
+    atomic_write_text(out / "comparison.md", render_markdown(doc))
+    folder.finish(outputs=["comparison.json", "predictions.jsonl", "comparison.md"])
+    lines = summary_lines(doc) + [f"wrote {out / 'comparison.md'}"]
+    return {"summary": lines, "comparison": doc, "out_dir": str(out)}

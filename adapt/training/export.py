@@ -1,0 +1,71 @@
+"""What the pretrain stage leaves behind besides checkpoints: plain exported models, a model card, and the
+exact pseudo-perplexity figures measured at the start and end of a run."""
+
+from __future__ import annotations
+
+import logging
+from pathlib import Path
+
+import torch
+
+from adapt.config.pretrain import PretrainJob
+from adapt.common.io import atomic_write_text
+
+log = logging.getLogger(__name__)
+
+CAUTION = ("Trained on text that may come from legal or clinical records. De-identify before training, follow the "
+           "data-protection law that applies to you and your institution's governance, and check the corpus audit "
+           "(profile.md) before sharing this model: it may have memorised rare strings. Its outputs are not legal "
+           "or medical advice.")
+
+
+def export_checkpoint(model: torch.nn.Module, tokenizer, folder: Path) -> None:
+    """Save a folder that loads with plain ``AutoModelForMaskedLM.from_pretrained`` (safetensors)."""
+    folder.mkdir(parents=True, exist_ok=True)
+    model.save_pretrained(folder, safe_serialization=True)
+    tokenizer.save_pretrained(folder)
+
+
+def measure_pppl(model: torch.nn.Module, tokenizer, texts: dict[str, list[str]], cfg: PretrainJob) -> dict[str, float]:
+    """Exact pseudo-perplexity on the first ``eval.pppl_max_tokens`` tokens of each held-out set
+    (keys ``pppl_<name>``); the same documents and tokens at the start and at the end of a run."""
+    if cfg.eval.pppl_max_tokens <= 0:
+        return {}
+    from adapt.evaluation.pppl import pseudo_perplexity, score_documents
+
+    out = {}
+    for name, docs in texts.items():
+        scores = score_documents(model, tokenizer, docs, max_seq_len=cfg.encoder.max_seq_len,
+                                 batch_size=cfg.eval.pppl_batch_size, precision=cfg.runtime.precision,
+                                 progress=cfg.runtime.progress, max_tokens=cfg.eval.pppl_max_tokens)
+        out[f"pppl_{name}"] = pseudo_perplexity(scores)
+    return out
+
+
+def write_model_card(folder: Path, cfg: PretrainJob, result: dict) -> None:
+    rows = "\n".join(f"| {k} | {result['start'].get(k, float('nan')):.4g} | {v:.4g} |"
+                     for k, v in sorted(result["end"].items()))
+    card = f"""# Domain-adapted encoder
+
+Continued masked-language-model pretraining of `{cfg.encoder.name_or_path}` on the prepared corpus
+`{cfg.corpus_dir}`, made with adapt.
+
+- training variant: {cfg.adapter.kind} ({result['trainable_parameters']:,} of {result['total_parameters']:,} parameters trained)
+- optimizer steps: {result['step']}; tokens seen: {result['tokens_seen']:,}; sequence length {cfg.encoder.max_seq_len}
+- masking: rate {cfg.masking.rate}, mask {cfg.masking.mask_share} / random {cfg.masking.random_share} / keep the rest
+- learning rate {cfg.schedule.learning_rate}, warmup {cfg.schedule.warmup_steps} steps, {cfg.schedule.decay} decay; seed {cfg.seed}
+- MLM head weights missing in the starting checkpoint (warmed up before measuring the base): {len(result['head_missing'])}
+
+## Held-out figures (base = starting encoder with warmed-up head)
+
+| measure | base | adapted |
+|---|---|---|
+{rows}
+
+Pseudo-perplexity figures are only comparable between models that share this tokenizer.
+
+## Cautions
+
+{CAUTION}
+"""
+    atomic_write_text(folder / "README.md", card)

@@ -1,0 +1,90 @@
+"""The MLM objective computed where it matters: the head runs only at masked positions.
+
+The vocab-sized decoder over every position costs more than a small encoder itself (PITFALLS: MiniLM, 30522
+outputs), so the loss module gathers the masked positions first. The loss stays inside the module's ``forward`` so
+that wrappers for several processes (DDP) and autocast see it.
+"""
+
+from __future__ import annotations
+
+import logging
+
+import torch
+import torch.nn.functional as F
+
+from adapt.common.seeding import step_seed
+from adapt.training.encoder import encoder_body, mlm_head
+from adapt.training.masking import IGNORE_INDEX, mask_tokens, replacement_ids, special_positions
+from adapt.training.packing import PackedSequences
+
+log = logging.getLogger(__name__)
+
+
+class MaskedOnlyMlm(torch.nn.Module):
+    """forward(input_ids, attention_mask, labels) -> mean cross-entropy over positions with a label."""
+
+    def __init__(self, model: torch.nn.Module):
+        super().__init__()
+        self.model = model
+
+    def forward(self, input_ids: torch.Tensor, attention_mask: torch.Tensor, labels: torch.Tensor,
+                body_grad: bool = True) -> torch.Tensor:
+        head = mlm_head(self.model)
+        if head is None:  # unknown architecture: let the model compute its own loss over all positions
+            return self.model(input_ids=input_ids, attention_mask=attention_mask, labels=labels).loss
+        with torch.set_grad_enabled(body_grad and torch.is_grad_enabled()):
+            hidden = encoder_body(self.model)(input_ids=input_ids, attention_mask=attention_mask).last_hidden_state
+        selected = labels != IGNORE_INDEX  # (B, T)
+        if not bool(selected.any()):
+            return hidden.sum() * 0.0
+        logits = head(hidden[selected])  # (M, V) for the M masked positions only
+        return F.cross_entropy(logits.float(), labels[selected])
+
+
+class MaskingPlan:
+    """Everything masking needs from the tokenizer and config, bound once."""
+
+    def __init__(self, tokenizer, rate: float, mask_share: float, random_share: float):
+        self.special_ids = sorted(set(tokenizer.all_special_ids))
+        self.mask_token_id = tokenizer.mask_token_id
+        self.random_ids = replacement_ids(len(tokenizer), self.special_ids)
+        self.rate, self.mask_share, self.random_share = rate, mask_share, random_share
+
+    def apply(self, input_ids: torch.Tensor, attention_mask: torch.Tensor, generator: torch.Generator):
+        special = special_positions(input_ids, self.special_ids) | (attention_mask == 0)
+        return mask_tokens(input_ids, special, rate=self.rate, mask_share=self.mask_share,
+                           random_share=self.random_share, mask_token_id=self.mask_token_id,
+                           random_ids=self.random_ids, generator=generator)
+
+
+class FixedMaskEval:
+    """Held-out MLM loss with one mask drawn once, so numbers at different steps are comparable."""
+
+    def __init__(self, seqs: PackedSequences, plan: MaskingPlan, seed: int, max_seqs: int, batch_size: int):
+        n = min(len(seqs), max_seqs)
+        g = torch.Generator().manual_seed(step_seed(seed, 0xE7A1))
+        self.input_ids, self.labels = plan.apply(seqs.input_ids[:n], seqs.attention_mask[:n], g)
+        self.attention_mask = seqs.attention_mask[:n]
+        self.batch_size = batch_size
+
+    @property
+    def num_masked(self) -> int:
+        return int((self.labels != IGNORE_INDEX).sum())
+
+    @torch.no_grad()
+    def loss(self, loss_module: torch.nn.Module, device: torch.device, autocast) -> float:
+        was_training = loss_module.training
+        loss_module.eval()
+        total, count = 0.0, 0
+        for start in range(0, len(self.input_ids), self.batch_size):
+            sl = slice(start, start + self.batch_size)
+            n = int((self.labels[sl] != IGNORE_INDEX).sum())
+            if n == 0:
+                continue
+            with autocast():
+                loss = loss_module(self.input_ids[sl].to(device), self.attention_mask[sl].to(device),
+                                   self.labels[sl].to(device))
+            total += float(loss) * n
+            count += n
+        loss_module.train(was_training)
+        return total / max(count, 1)

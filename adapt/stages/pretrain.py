@@ -10,31 +10,32 @@ from __future__ import annotations
 import contextlib
 import logging
 import time
+from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import torch
 from accelerate import Accelerator
 from tqdm.auto import tqdm
 from transformers import get_scheduler
 
-from adapt.training.adapters import build_adapter, count_trainable
-from adapt.training.packing import BatchCursor, pack_documents
-from adapt.contracts.checkpoint import find_resume_point, load_checkpoint, save_checkpoint
-from adapt.config.common import optional_str
-from adapt.config.pretrain import PretrainJob
-from adapt.training.encoder import load_mlm, load_tokenizer
 from adapt.common.errors import ConfigError, InputError
-from adapt.common.seeding import step_seed
-from adapt.training.encoder import unwrap_peft
-from adapt.training.head_warmup import warm_up_head
-from adapt.training.mlm_loss import FixedMaskEval, MaskedOnlyMlm, MaskingPlan
-from adapt.training.stop_signal import StopSignal
-from adapt.training.export import export_checkpoint, measure_pppl, write_model_card
-from adapt.contracts.run_folder import MetricsLog
-from adapt.contracts.manifest import RunFolder
 from adapt.common.io import atomic_write_json
 from adapt.common.runtime import apply_threads, resolve_device
+from adapt.common.seeding import step_seed
+from adapt.config.common import optional_str
+from adapt.config.pretrain import PretrainJob
+from adapt.contracts.checkpoint import find_resume_point, load_checkpoint, save_checkpoint
+from adapt.contracts.manifest import RunFolder
 from adapt.contracts.prepared_corpus import read_prepared
+from adapt.contracts.run_folder import MetricsLog
+from adapt.training.adapters import Adapter, build_adapter, count_trainable
+from adapt.training.encoder import load_mlm, load_tokenizer, unwrap_peft
+from adapt.training.export import export_checkpoint, measure_pppl, write_model_card
+from adapt.training.head_warmup import warm_up_head
+from adapt.training.mlm_loss import FixedMaskEval, MaskedOnlyMlm, MaskingPlan
+from adapt.training.packing import BatchCursor, PackedSequences, pack_documents
+from adapt.training.stop_signal import StopSignal
 
 log = logging.getLogger(__name__)
 
@@ -42,14 +43,6 @@ log = logging.getLogger(__name__)
 def _accelerator(cfg: PretrainJob) -> Accelerator:
     apply_threads(cfg.runtime)
     return Accelerator(cpu=resolve_device(cfg.runtime).type == "cpu", mixed_precision="bf16" if cfg.runtime.precision == "bf16" else "no")
-
-
-def _load_split(corpus_dir: str, split: str, tokenizer, cfg: PretrainJob, key: str):
-    docs = read_prepared(corpus_dir, split, columns=None)
-    seqs = pack_documents([d["text"] for d in docs], tokenizer, cfg.encoder.max_seq_len, cfg.runtime.progress)
-    if len(seqs) == 0:
-        raise InputError(f"{key}={corpus_dir}: the {split} split has no text to train or evaluate on")
-    return docs, seqs
 
 
 def _optimizer(model: torch.nn.Module, cfg: PretrainJob) -> torch.optim.Optimizer:
@@ -64,152 +57,245 @@ def _optimizer(model: torch.nn.Module, cfg: PretrainJob) -> torch.optim.Optimize
     return torch.optim.AdamW(groups, lr=cfg.schedule.learning_rate, fused=fused)
 
 
-def run(cfg: PretrainJob) -> dict:
-    out = Path(cfg.out_dir)
-    ckpt_dir = out / "checkpoints"
-    resume_from = find_resume_point(cfg.resume, ckpt_dir)
-    general_dir = optional_str(cfg.general_dir)
-    accelerator = _accelerator(cfg)
-    main = accelerator.is_main_process
-    run_folder = RunFolder(out, "pretrain", cfg, [cfg.corpus_dir] + ([general_dir] if general_dir else []),
-                           cfg.seed) if main else None
-    metrics = MetricsLog(out / "metrics.jsonl")
-    device, autocast = accelerator.device, accelerator.autocast
+@dataclass
+class RunData:
+    """Token ids packed once per process; the fixed-mask held-out sets; the texts for pseudo-perplexity."""
 
-    tokenizer = load_tokenizer(cfg.encoder)
-    model, head_report = load_mlm(cfg.encoder)
+    train: PackedSequences
+    evals: dict[str, FixedMaskEval]
+    pppl_texts: dict[str, list[str]]
+
+
+@dataclass
+class Training:
+    """What the loop changes, and what a checkpoint saves and resume restores."""
+
+    adapter: Adapter
+    loss_module: torch.nn.Module
+    optimizer: torch.optim.Optimizer
+    scheduler: Any
+    cursor: BatchCursor
+    trainable: int
+    total: int
+    step: int = 0
+    tokens_seen: int = 0
+
+
+def _load_split(corpus_dir: str, split: str, tokenizer, cfg: PretrainJob, key: str):
+    docs = read_prepared(corpus_dir, split, columns=None)
+    seqs = pack_documents([d["text"] for d in docs], tokenizer, cfg.encoder.max_seq_len, cfg.runtime.progress)
+    if len(seqs) == 0:
+        raise InputError(f"{key}={corpus_dir}: the {split} split has no text to train or evaluate on")
+    return docs, seqs
+
+
+def _load_data(cfg: PretrainJob, tokenizer, plan: MaskingPlan, num_processes: int) -> RunData:
+    """Read and pack the corpus. Every process packs the whole corpus itself (and again on resume): the cursor
+    then picks each process's share of a batch by index, so no tensors cross processes."""
+    general_dir = optional_str(cfg.general_dir)
     _, train = _load_split(cfg.corpus_dir, "train", tokenizer, cfg, "corpus_dir")
     heldout_docs, heldout = _load_split(cfg.corpus_dir, "heldout", tokenizer, cfg, "corpus_dir")
-    general_docs, general = _load_split(general_dir, "heldout", tokenizer, cfg, "general_dir") if general_dir \
-        else ([], None)
-    if len(train) < cfg.schedule.batch_size * accelerator.num_processes:
-        raise ConfigError(f"schedule.batch_size={cfg.schedule.batch_size} × {accelerator.num_processes} "
-                          f"process(es) exceeds the {len(train)} packed training sequences in {cfg.corpus_dir}; "
-                          "lower schedule.batch_size or add text")
-    m = cfg.masking
-    plan = MaskingPlan(tokenizer, m.rate, m.mask_share, m.random_share)
-    evals = {"domain": FixedMaskEval(heldout, plan, cfg.seed, cfg.eval.max_heldout_seqs, cfg.schedule.batch_size)}
-    if general is not None:
-        evals["general"] = FixedMaskEval(general, plan, cfg.seed, cfg.eval.max_heldout_seqs, cfg.schedule.batch_size)
-    pppl_texts = {"domain": [d["text"] for d in heldout_docs]}
-    if general_docs:
-        pppl_texts["general"] = [d["text"] for d in general_docs]
-    model.to(device)
+    if len(train) < cfg.schedule.batch_size * num_processes:
+        raise ConfigError(f"schedule.batch_size={cfg.schedule.batch_size} × {num_processes} process(es) exceeds "
+                          f"the {len(train)} packed training sequences in {cfg.corpus_dir}; lower "
+                          "schedule.batch_size or add text")
+    sets = {"domain": (heldout_docs, heldout)}
+    if general_dir:
+        sets["general"] = _load_split(general_dir, "heldout", tokenizer, cfg, "general_dir")
+    # the same seed draws the same fixed mask at every start and resume, so held-out figures stay comparable
+    evals = {name: FixedMaskEval(seqs, plan, cfg.seed, cfg.eval.max_heldout_seqs, cfg.schedule.batch_size)
+             for name, (_, seqs) in sets.items()}
+    texts = {name: [d["text"] for d in docs] for name, (docs, _) in sets.items()}
+    return RunData(train, evals, texts)
 
-    if resume_from is None:
-        warm = cfg.head_warmup
-        if warm.when == "always" or (warm.when == "auto" and head_report.needs_warmup):
-            if warm.steps == 0 and head_report.needs_warmup:
-                log.warning("the MLM head is untrained and head_warmup.steps=0: base figures are meaningless")
-            losses, converged = warm_up_head(
-                model, train, plan, steps=warm.steps, learning_rate=warm.learning_rate, batch_size=warm.batch_size,
-                seed=cfg.seed, device=device, autocast=autocast, progress=cfg.runtime.progress and main,
-                min_improvement=warm.min_improvement, window_steps=warm.window_steps)
-            if main and losses:
-                metrics.write(phase="head_warmup", steps=len(losses), first_loss=losses[0], last_loss=losses[-1],
-                              converged=converged, losses=losses)
-                if not converged and warm.min_improvement > 0:
-                    log.warning("the MLM head was still improving after head_warmup.steps=%d (loss %.3f -> %.3f): "
-                                "base figures may be too pessimistic; raise head_warmup.steps", len(losses),
-                                losses[0], losses[-1])
-        if main:  # the fair "base": original encoder, warmed head, nothing else changed
-            export_checkpoint(model, tokenizer, out / "base")
-            loss_module = MaskedOnlyMlm(model)
-            start = {f"heldout_loss_{k}": e.loss(loss_module, device, autocast) for k, e in evals.items()}
-            start.update(measure_pppl(model, tokenizer, pppl_texts, cfg))
-            metrics.write(phase="start", step=0, **start)
-            log.info("base model: %s", _fmt(start))
 
+def _warm_up_head(cfg: PretrainJob, model, head_report, data: RunData, plan: MaskingPlan,
+                  accelerator: Accelerator, metrics: MetricsLog) -> None:
+    warm = cfg.head_warmup
+    if not (warm.when == "always" or (warm.when == "auto" and head_report.needs_warmup)):
+        return
+    if warm.steps == 0 and head_report.needs_warmup:
+        log.warning("the MLM head is untrained and head_warmup.steps=0: base figures are meaningless")
+    main = accelerator.is_main_process
+    losses, converged = warm_up_head(
+        model, data.train, plan, steps=warm.steps, learning_rate=warm.learning_rate, batch_size=warm.batch_size,
+        seed=cfg.seed, device=accelerator.device, autocast=accelerator.autocast,
+        progress=cfg.runtime.progress and main, min_improvement=warm.min_improvement, window_steps=warm.window_steps)
+    if not (main and losses):
+        return
+    metrics.write(phase="head_warmup", steps=len(losses), first_loss=losses[0], last_loss=losses[-1],
+                  converged=converged, losses=losses)
+    if not converged and warm.min_improvement > 0:
+        log.warning("the MLM head was still improving after head_warmup.steps=%d (loss %.3f -> %.3f): base figures "
+                    "may be too pessimistic; raise head_warmup.steps", len(losses), losses[0], losses[-1])
+
+
+def _measure_base(cfg: PretrainJob, model, tokenizer, data: RunData, accelerator: Accelerator,
+                  metrics: MetricsLog, out: Path) -> None:
+    """The fair "base": the original encoder with the warmed head, nothing else changed; saved as base/."""
+    if not accelerator.is_main_process:
+        return
+    export_checkpoint(model, tokenizer, out / "base")
+    loss_module = MaskedOnlyMlm(model)
+    start = {f"heldout_loss_{k}": e.loss(loss_module, accelerator.device, accelerator.autocast)
+             for k, e in data.evals.items()}
+    start.update(measure_pppl(model, tokenizer, data.pppl_texts, cfg))
+    metrics.write(phase="start", step=0, **start)
+    log.info("base model: %s", _fmt(start))
+
+
+def _set_up_training(cfg: PretrainJob, model, data: RunData, accelerator: Accelerator,
+                     resume_from: Path | None) -> Training:
     adapter = build_adapter(cfg.adapter.kind)
     model = adapter.apply(model, cfg.adapter)
     trainable, total = count_trainable(model)
     log.info("adapter %s: %d of %d parameters train (%.2f%%)", cfg.adapter.kind, trainable, total,
              100 * trainable / total)
-    loss_module = MaskedOnlyMlm(model).to(device)
+    loss_module = MaskedOnlyMlm(model).to(accelerator.device)
     optimizer = _optimizer(model, cfg)
     s = cfg.schedule
     scheduler = get_scheduler("constant_with_warmup" if s.decay == "constant" else s.decay, optimizer,
                               num_warmup_steps=s.warmup_steps, num_training_steps=s.max_steps)
-    cursor = BatchCursor(len(train), s.batch_size, cfg.seed, accelerator.process_index, accelerator.num_processes)
-    step, tokens_seen = 0, 0
+    cursor = BatchCursor(len(data.train), s.batch_size, cfg.seed, accelerator.process_index,
+                         accelerator.num_processes)
+    t = Training(adapter, loss_module, optimizer, scheduler, cursor, trainable, total)
     if resume_from is not None:
-        state = load_checkpoint(resume_from, model, optimizer, scheduler)
-        try:
-            cursor.load_state_dict(state["cursor"])
-        except RuntimeError as exc:
-            raise ConfigError(f"resume from {resume_from}: {exc}; resume with the same settings or start a new "
-                              "out_dir") from exc
-        step, tokens_seen = state["step"], state["tokens_seen"]
-        log.info("resumed from %s at step %d", resume_from, step)
-    loss_module, optimizer = accelerator.prepare(loss_module, optimizer)
+        _restore(t, resume_from)
+    # wrap for several processes only after the state is restored into the plain modules
+    t.loss_module, t.optimizer = accelerator.prepare(t.loss_module, t.optimizer)
+    return t
 
-    def checkpoint_now() -> None:
-        accelerator.wait_for_everyone()
-        if main:
-            save_checkpoint(ckpt_dir, step, unwrap_peft(accelerator.unwrap_model(loss_module).model), optimizer,
-                            scheduler, {"cursor": cursor.state_dict(), "tokens_seen": tokens_seen,
-                                        "seed": cfg.seed, "adapter": cfg.adapter.kind}, cfg.checkpoint.keep_last)
 
+def _restore(t: Training, resume_from: Path) -> None:
+    state = load_checkpoint(resume_from, t.loss_module.model, t.optimizer, t.scheduler)
+    try:
+        t.cursor.load_state_dict(state["cursor"])
+    except RuntimeError as exc:
+        raise ConfigError(f"resume from {resume_from}: {exc}; resume with the same settings or start a new "
+                          "out_dir") from exc
+    t.step, t.tokens_seen = state["step"], state["tokens_seen"]
+    log.info("resumed from %s at step %d", resume_from, t.step)
+
+
+def _checkpoint(cfg: PretrainJob, t: Training, accelerator: Accelerator, ckpt_dir: Path) -> None:
+    accelerator.wait_for_everyone()  # sync point: every rank has finished the step being saved
+    if accelerator.is_main_process:
+        model = unwrap_peft(accelerator.unwrap_model(t.loss_module).model)
+        save_checkpoint(ckpt_dir, t.step, model, t.optimizer, t.scheduler,
+                        {"cursor": t.cursor.state_dict(), "tokens_seen": t.tokens_seen, "seed": cfg.seed,
+                         "adapter": cfg.adapter.kind}, cfg.checkpoint.keep_last)
+
+
+def _optimizer_step(cfg: PretrainJob, t: Training, data: RunData, plan: MaskingPlan, accelerator: Accelerator,
+                    params: list[torch.nn.Parameter]) -> tuple[float, float | None]:
+    """grad_accum_steps micro-steps, then one optimizer step; returns (loss, gradient norm)."""
+    s, device, rank = cfg.schedule, accelerator.device, accelerator.process_index
+    t.loss_module.train()
+    step_loss = 0.0
+    for micro in range(s.grad_accum_steps):
+        idx = t.cursor.next_indices()
+        ids, mask = data.train.input_ids[idx], data.train.attention_mask[idx]  # (B, T) this process's share
+        g = torch.Generator().manual_seed(step_seed(cfg.seed, t.step, micro, rank))
+        masked, labels = plan.apply(ids, mask, g)
+        torch.manual_seed(step_seed(cfg.seed, t.step, micro, rank, 1))  # dropout draws
+        last = micro == s.grad_accum_steps - 1
+        # no_sync: gradients are all-reduced across processes once, on the last micro-step only
+        with contextlib.nullcontext() if last else accelerator.no_sync(t.loss_module):
+            loss = t.loss_module(masked.to(device), mask.to(device), labels.to(device)) / s.grad_accum_steps
+            accelerator.backward(loss)
+        step_loss += float(loss.detach())
+        # every process takes an equal share of the global batch, so this process's count × processes is the total
+        t.tokens_seen += int(mask.sum()) * accelerator.num_processes
+    grad_norm = float(accelerator.clip_grad_norm_(params, s.max_grad_norm)) if s.max_grad_norm > 0 else None
+    t.optimizer.step()
+    t.scheduler.step()
+    t.optimizer.zero_grad(set_to_none=True)
+    t.step += 1
+    if accelerator.num_processes > 1:  # sync point: log the mean over processes, not rank 0's share
+        step_loss = float(accelerator.reduce(torch.tensor(step_loss, device=device), "mean"))
+    return step_loss, grad_norm
+
+
+def _train(cfg: PretrainJob, t: Training, data: RunData, plan: MaskingPlan, accelerator: Accelerator,
+           metrics: MetricsLog, ckpt_dir: Path) -> None:
+    s, main = cfg.schedule, accelerator.is_main_process
     stop_at = s.stop_after_steps or s.max_steps
-    params = [p for p in model.parameters() if p.requires_grad]
-    t0, tokens_t0 = time.perf_counter(), tokens_seen
-    bar = tqdm(total=s.max_steps, initial=step, desc="pretrain", unit="step", disable=not (cfg.runtime.progress and main))
+    params = [p for p in t.loss_module.parameters() if p.requires_grad]
+    t0, tokens_t0 = time.perf_counter(), t.tokens_seen
+    bar = tqdm(total=s.max_steps, initial=t.step, desc="pretrain", unit="step",
+               disable=not (cfg.runtime.progress and main))
     with StopSignal() as stop:
-        while step < stop_at and not stop.requested:
-            loss_module.train()
-            step_loss = 0.0
-            for micro in range(s.grad_accum_steps):
-                idx = cursor.next_indices()
-                ids, mask = train.input_ids[idx], train.attention_mask[idx]
-                g = torch.Generator().manual_seed(step_seed(cfg.seed, step, micro, accelerator.process_index))
-                masked, labels = plan.apply(ids, mask, g)
-                torch.manual_seed(step_seed(cfg.seed, step, micro, accelerator.process_index, 1))  # dropout
-                last = micro == s.grad_accum_steps - 1
-                with contextlib.nullcontext() if last else accelerator.no_sync(loss_module):
-                    loss = loss_module(masked.to(device), mask.to(device), labels.to(device)) / s.grad_accum_steps
-                    accelerator.backward(loss)
-                step_loss += float(loss.detach())
-                tokens_seen += int(mask.sum()) * accelerator.num_processes
-            grad_norm = float(accelerator.clip_grad_norm_(params, s.max_grad_norm)) if s.max_grad_norm > 0 else None
-            optimizer.step()
-            scheduler.step()
-            optimizer.zero_grad(set_to_none=True)
-            step += 1
-            if accelerator.num_processes > 1:  # log the mean over processes, not rank 0's share
-                step_loss = float(accelerator.reduce(torch.tensor(step_loss, device=device), "mean"))
+        while t.step < stop_at and not stop.requested:
+            loss, grad_norm = _optimizer_step(cfg, t, data, plan, accelerator, params)
             bar.update(1)
-            bar.set_postfix(loss=f"{step_loss:.3f}")
-            record = {"phase": "train", "step": step, "loss": step_loss, "learning_rate": scheduler.get_last_lr()[0],
-                      "grad_norm": grad_norm, "tokens_seen": tokens_seen,
-                      "tokens_per_second": (tokens_seen - tokens_t0) / max(time.perf_counter() - t0, 1e-9)}
-            if cfg.eval.every_steps and step % cfg.eval.every_steps == 0 and step < s.max_steps:
-                record.update({f"heldout_loss_{k}": e.loss(loss_module, device, autocast) for k, e in evals.items()})
-                log.info("step %d: %s", step, _fmt(record))
+            bar.set_postfix(loss=f"{loss:.3f}")
+            record = {"phase": "train", "step": t.step, "loss": loss,
+                      "learning_rate": t.scheduler.get_last_lr()[0], "grad_norm": grad_norm,
+                      "tokens_seen": t.tokens_seen,
+                      "tokens_per_second": (t.tokens_seen - tokens_t0) / max(time.perf_counter() - t0, 1e-9)}
+            if cfg.eval.every_steps and t.step % cfg.eval.every_steps == 0 and t.step < s.max_steps:
+                record.update({f"heldout_loss_{k}": e.loss(t.loss_module, accelerator.device, accelerator.autocast)
+                               for k, e in data.evals.items()})
+                log.info("step %d: %s", t.step, _fmt(record))
             if main:
                 metrics.write(**record)
-            if (cfg.checkpoint.save_every_steps and step % cfg.checkpoint.save_every_steps == 0) \
-                    or step == stop_at or stop.requested:
-                checkpoint_now()
+            every = cfg.checkpoint.save_every_steps
+            if (every and t.step % every == 0) or t.step == stop_at or stop.requested:
+                _checkpoint(cfg, t, accelerator, ckpt_dir)
     bar.close()
 
-    if step < s.max_steps:
-        if main:
-            run_folder.finish("stopped", step=step)
-        return {"out_dir": str(out), "step": step, "completed": False,
-                "summary": [f"stopped at step {step} of {s.max_steps}; resume with resume=auto out_dir={out}"]}
 
-    end = {f"heldout_loss_{k}": e.loss(loss_module, device, autocast) for k, e in evals.items()}
-    final_model = adapter.export(accelerator.unwrap_model(loss_module).model)
-    end.update(measure_pppl(final_model, tokenizer, pppl_texts, cfg) if main else {})
-    result = {"out_dir": str(out), "step": step, "completed": True, "tokens_seen": tokens_seen,
-              "trainable_parameters": trainable, "total_parameters": total, "head_missing": head_report.missing,
-              "start": _start_figures(metrics), "end": end}
+def _finish(cfg: PretrainJob, t: Training, data: RunData, tokenizer, head_report, accelerator: Accelerator,
+            metrics: MetricsLog, out: Path) -> dict:
+    """Final held-out figures, then final/ (adapters merged) with its model card, and result.json."""
+    main = accelerator.is_main_process
+    end = {f"heldout_loss_{k}": e.loss(t.loss_module, accelerator.device, accelerator.autocast)
+           for k, e in data.evals.items()}
+    final_model = t.adapter.export(accelerator.unwrap_model(t.loss_module).model)
+    end.update(measure_pppl(final_model, tokenizer, data.pppl_texts, cfg) if main else {})
+    result = {"out_dir": str(out), "step": t.step, "completed": True, "tokens_seen": t.tokens_seen,
+              "trainable_parameters": t.trainable, "total_parameters": t.total,
+              "head_missing": head_report.missing, "start": _start_figures(metrics), "end": end}
     if main:
-        metrics.write(phase="end", step=step, **end)
+        metrics.write(phase="end", step=t.step, **end)
         export_checkpoint(final_model, tokenizer, out / "final")
         write_model_card(out / "final", cfg, result)
         atomic_write_json(out / "result.json", result)
-        run_folder.finish("completed", step=step)
+    return result
+
+
+def run(cfg: PretrainJob) -> dict:
+    out = Path(cfg.out_dir)
+    ckpt_dir = out / "checkpoints"
+    resume_from = find_resume_point(cfg.resume, ckpt_dir)
+    accelerator = _accelerator(cfg)
+    main = accelerator.is_main_process
+    general_dir = optional_str(cfg.general_dir)
+    run_folder = RunFolder(out, "pretrain", cfg, [cfg.corpus_dir] + ([general_dir] if general_dir else []),
+                           cfg.seed) if main else None
+    metrics = MetricsLog(out / "metrics.jsonl")
+
+    tokenizer = load_tokenizer(cfg.encoder)
+    model, head_report = load_mlm(cfg.encoder)
+    m = cfg.masking
+    plan = MaskingPlan(tokenizer, m.rate, m.mask_share, m.random_share)
+    data = _load_data(cfg, tokenizer, plan, accelerator.num_processes)
+    model.to(accelerator.device)
+    if resume_from is None:  # a resumed run measured its base when it started
+        _warm_up_head(cfg, model, head_report, data, plan, accelerator, metrics)
+        _measure_base(cfg, model, tokenizer, data, accelerator, metrics, out)
+
+    t = _set_up_training(cfg, model, data, accelerator, resume_from)
+    _train(cfg, t, data, plan, accelerator, metrics, ckpt_dir)
+    if t.step < cfg.schedule.max_steps:
+        if main:
+            run_folder.finish("stopped", step=t.step)
+        return {"out_dir": str(out), "step": t.step, "completed": False,
+                "summary": [f"stopped at step {t.step} of {cfg.schedule.max_steps}; resume with resume=auto "
+                            f"out_dir={out}"]}
+    result = _finish(cfg, t, data, tokenizer, head_report, accelerator, metrics, out)
+    if main:
+        run_folder.finish("completed", step=t.step)
     result["summary"] = _summary(result)
     return result
 

@@ -8,29 +8,54 @@ import datetime as _dt
 import hashlib
 import json
 import os
-import tempfile
+import secrets
 from pathlib import Path
-from typing import Any, Iterable
+from typing import Any, Callable, Iterable
 
 
 def now_utc() -> str:
     return _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")
 
 
-def atomic_write_bytes(path: Path, data: bytes) -> None:
-    """Write ``data`` to ``path`` via a temp file in the same folder and ``os.replace``."""
+def fsync_file(path: Path) -> None:
+    fd = os.open(path, os.O_RDWR)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)
+
+
+def fsync_dir(folder: Path) -> None:
+    """Make a rename or a new entry in ``folder`` durable (POSIX; Windows cannot open a folder for this)."""
+    if os.name != "posix":
+        return
+    fd = os.open(folder, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)
+
+
+def atomic_write_with(path: Path, write: Callable[[Path], None]) -> None:
+    """``write(tmp)`` creates the content at a temp path in the same folder (for writers that need a path:
+    pyarrow, safetensors, torch.save); the file is fsynced, renamed over ``path`` with ``os.replace`` and the
+    folder fsynced. On any error the temp file is removed and an existing ``path`` is left as it was.
+    The writer creates the temp file itself, so it gets the usual permissions (not mkstemp's 0600)."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    tmp = path.with_name(f".{path.name}.{os.getpid()}-{secrets.token_hex(6)}.tmp")
     try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
+        write(tmp)
+        fsync_file(tmp)
         os.replace(tmp, path)
     except BaseException:
-        Path(tmp).unlink(missing_ok=True)
+        tmp.unlink(missing_ok=True)
         raise
+    fsync_dir(path.parent)
+
+
+def atomic_write_bytes(path: Path, data: bytes) -> None:
+    atomic_write_with(path, lambda tmp: tmp.write_bytes(data))
 
 
 def atomic_write_text(path: Path, text: str) -> None:

@@ -15,7 +15,7 @@ from typing import Any, Callable
 from hydra.core.config_store import ConfigStore
 from omegaconf import DictConfig, OmegaConf
 
-from adapt.config import compare, demo, prepare, pretrain, score
+from adapt.config import compare, demo, prepare, pretrain, report, score
 from adapt.common.errors import Problems
 
 
@@ -44,6 +44,7 @@ JOBS: dict[str, JobSpec] = {
     "pretrain": JobSpec("pretrain", pretrain.PretrainJob, pretrain.validate),
     "score": JobSpec("score", score.ScoreJob, score.validate),
     "compare": JobSpec("compare", compare.CompareJob, compare.validate),
+    "report": JobSpec("report", report.ReportJob, report.validate),
     "demo": JobSpec("demo", demo.DemoJob, demo.validate),
 }
 

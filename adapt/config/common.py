@@ -8,6 +8,7 @@ from typing import Any, Optional
 from adapt.common.errors import Problems
 
 PACKAGED_ENCODER = "packaged:all-minilm-l6-v2"
+PRECISIONS = ("auto", "fp32", "bf16")  # runtime.precision values; adapt.common.runtime resolves "auto"
 
 
 @dataclass
@@ -39,8 +40,9 @@ class MaskingConfig:
 class RuntimeConfig:
     # "auto" picks a GPU when one is visible, else the CPU.
     device: str = "auto"
-    # "fp32" or "bf16" (autocast; faster on CPUs with avx512_bf16/AMX and on recent GPUs).
-    precision: str = "fp32"
+    # "auto", "fp32" or "bf16" (autocast). "auto" picks bf16 only where it is fast: a GPU with native bf16, or a
+    # CPU with avx512_bf16/AMX (or one where a quick matmul probe finds bf16 no slower than fp32); else fp32.
+    precision: str = "auto"
     # CPU threads for torch; 0 leaves torch's default.
     num_threads: int = 0
     # Show tqdm progress bars.
@@ -67,8 +69,9 @@ def validate_masking(cfg: MaskingConfig, prefix: str, p: Problems) -> None:
 def validate_runtime(cfg: RuntimeConfig, prefix: str, p: Problems) -> None:
     p.check(cfg.device in ("auto", "cpu", "cuda") or cfg.device.startswith("cuda:"),
             f"{prefix}.device={cfg.device!r} is not one of auto, cpu, cuda, cuda:N; try {prefix}.device=auto")
-    p.check(cfg.precision in ("fp32", "bf16"),
-            f"{prefix}.precision={cfg.precision!r} is not one of fp32, bf16; try {prefix}.precision=fp32")
+    p.check(cfg.precision in PRECISIONS,
+            f"{prefix}.precision={cfg.precision!r} is not one of {', '.join(PRECISIONS)}; "
+            f"try {prefix}.precision=auto")
     p.check(cfg.num_threads >= 0, f"{prefix}.num_threads={cfg.num_threads} is negative; use 0 for the default")
 
 

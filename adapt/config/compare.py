@@ -17,7 +17,7 @@ SELECT_EPOCH = ("best_dev", "last")
 
 @dataclass
 class TaskConfig:
-    # Folder with train/dev/test files (.jsonl or .csv) holding a text and a label column.
+    # Folder with train/dev/test files (.jsonl, .csv or .tsv, optionally .gz) holding a text and a label field.
     dir: str = "???"
     text_field: str = "text"
     label_field: str = "label"
@@ -63,6 +63,8 @@ class CompareJob:
     # Arm name -> checkpoint folder (or packaged:all-minilm-l6-v2, or a pretrain run folder holding final/).
     # Every arm gets the same classifier head initialisation and the same seeds.
     arms: dict[str, str] = field(default_factory=dict)
+    # Run code shipped inside an arm's checkpoint (custom model classes); only for checkpoints you trust.
+    trust_remote_code: bool = False
     # Arm every other fine-tuned arm is compared with in the paired tests.
     reference_arm: str = "base"
     task: TaskConfig = field(default_factory=TaskConfig)

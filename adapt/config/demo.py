@@ -1,4 +1,4 @@
-"""Config schema of the demo job: the whole chain prepare -> pretrain -> score -> compare."""
+"""Config schema of the demo job: the whole chain prepare -> pretrain -> score -> compare -> report."""
 
 from __future__ import annotations
 
@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 from adapt.config import compare as compare_cfg
 from adapt.config import prepare as prepare_cfg
 from adapt.config import pretrain as pretrain_cfg
+from adapt.config import report as report_cfg
 from adapt.config import score as score_cfg
 from adapt.common.errors import Problems
 
@@ -21,6 +22,8 @@ class DemoJob:
     pretrain: pretrain_cfg.PretrainJob = field(default_factory=pretrain_cfg.PretrainJob)
     score: score_cfg.ScoreJob = field(default_factory=score_cfg.ScoreJob)
     compare: compare_cfg.CompareJob = field(default_factory=compare_cfg.CompareJob)
+    # the last stage: one page over the folders above (conf/demo.yaml wires them)
+    report: report_cfg.ReportJob = field(default_factory=report_cfg.ReportJob)
 
 
 def validate(cfg: DemoJob, p: Problems, prefix: str = "") -> None:
@@ -30,3 +33,4 @@ def validate(cfg: DemoJob, p: Problems, prefix: str = "") -> None:
     pretrain_cfg.validate(cfg.pretrain, p, "pretrain")
     score_cfg.validate(cfg.score, p, "score")
     compare_cfg.validate(cfg.compare, p, "compare", arms_required=False)  # the demo fills arms
+    report_cfg.validate(cfg.report, p, "report")

@@ -1,7 +1,7 @@
 """Config schema of the prepare job: read, clean, filter, de-duplicate and split raw documents.
 
-Every default is documented once here. Paths starting with ``${samples_dir:}`` point into the invented sample
-corpora; set such a key to null to switch the feature off.
+Every default is documented once here. No default points into the invented sample corpora: the demo and the
+prepare presets set their paths to ``${samples_dir:}/...``.
 """
 
 from __future__ import annotations
@@ -74,9 +74,9 @@ class CharsetConfig:
 
 @dataclass
 class QualityConfig:
-    # Gold set (jsonl with text and label good/poor) to train the quality classifier on; null = transparent
-    # heuristic score instead (reported as such).
-    gold_path: Optional[str] = "${samples_dir:}/quality_gold.jsonl"
+    # Gold set (.jsonl/.csv/.tsv, optionally .gz, UTF-8, with text and label good/poor) to train the quality
+    # classifier on; null = transparent heuristic score instead (reported as such).
+    gold_path: Optional[str] = None
     text_field: str = "text"
     label_field: str = "label"
     # Documents scoring below this (probability of "good", or share of heuristic rules passed) are dropped.
@@ -117,7 +117,8 @@ class PrivacyConfig:
 
 @dataclass
 class ContaminationConfig:
-    # Folder with train/dev/test .jsonl or .csv files of a labelled task; null = no check.
+    # Folder with train/dev/test .jsonl, .csv or .tsv files (optionally .gz) of a labelled task, read as the
+    # compare job reads it; null = no check.
     task_dir: Optional[str] = None
     text_field: str = "text"
     # A corpus document overlaps a task text when it contains at least min_containment of the task text's
@@ -132,7 +133,7 @@ class ContaminationConfig:
 @dataclass
 class ProfileConfig:
     # General-text sample to compare the corpus with (fertility, unigram overlap); null = skip the comparison.
-    general_path: Optional[str] = "${samples_dir:}/general"
+    general_path: Optional[str] = None
     # Tokenizer whose fertility (subword tokens per word) and unknown-token rate are measured.
     encoder: EncoderConfig = field(default_factory=EncoderConfig)
     # Documents sampled (seeded) for the tokenizer measures.

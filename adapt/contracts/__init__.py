@@ -1,2 +1,2 @@
-"""The on-disk hand-offs between stages, one reader/writer each: prepared corpus, labelled task, pretrain run
-folder, checkpoint, manifest."""
+"""The on-disk hand-offs between stages, one reader/writer each: prepared corpus, labelled task, model folder,
+pretrain run folder, checkpoint, manifest."""

@@ -16,7 +16,7 @@ import torch
 from safetensors.torch import load_model, save_model
 
 from adapt.common.errors import ConfigError, InputError
-from adapt.common.io import atomic_write_json, read_json
+from adapt.common.io import atomic_write_json, atomic_write_with, fsync_dir, read_json
 
 log = logging.getLogger(__name__)
 
@@ -31,13 +31,15 @@ def save_checkpoint(root: Path, step: int, model: torch.nn.Module, optimizer: to
     tmp = root / f".incomplete-step-{step}"
     shutil.rmtree(tmp, ignore_errors=True)
     tmp.mkdir()
-    save_model(model, str(tmp / "model.safetensors"))
-    torch.save(optimizer.state_dict(), tmp / "optimizer.pt")
-    torch.save(scheduler.state_dict(), tmp / "scheduler.pt")
+    # every file fsynced (with the folder) before the folder is renamed; the rename fsynced in its parent
+    atomic_write_with(tmp / "model.safetensors", lambda p: save_model(model, str(p)))
+    atomic_write_with(tmp / "optimizer.pt", lambda p: torch.save(optimizer.state_dict(), p))
+    atomic_write_with(tmp / "scheduler.pt", lambda p: torch.save(scheduler.state_dict(), p))
     atomic_write_json(tmp / "state.json", {**state, "step": step})
     if final.exists():
         shutil.rmtree(final)
     tmp.rename(final)
+    fsync_dir(root)
     entries = [e for e in _read_index(root) if e["step"] != step] + [{"step": step, "folder": final.name}]
     entries.sort(key=lambda e: e["step"])
     for old in entries[:-keep_last]:

@@ -1,14 +1,22 @@
-"""Read a labelled classification task: a folder with train, dev and test files (.jsonl or .csv).
+"""Labelled files: a classification task folder (train, dev and test files) and any other file of labelled
+texts (the quality gold set). This is the one reader of them, used by compare, the contamination check and the
+quality classifier, so all three see the same files and the same texts.
 
-Labels are kept as strings and numbered in sorted order of the training labels, so every arm and every run
-sees the same label ids. Input files are only read, never changed.
+Formats: .jsonl (one JSON object per line), .csv and .tsv (a header row), each optionally gzipped (.gz). Text
+must be UTF-8 (a byte-order mark is allowed); other bytes are refused with one clear error rather than guessed.
+Labels are kept as strings and numbered in sorted order of the training labels, so every arm and every run sees
+the same label ids. Input files are only read, never changed.
 """
 
 from __future__ import annotations
 
 import csv
+import gzip
+import io
 import json
 import logging
+import sys
+import zlib
 from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -18,7 +26,19 @@ from adapt.common.errors import InputError
 log = logging.getLogger(__name__)
 
 SPLITS = ("train", "dev", "test")
-SUFFIXES = (".jsonl", ".csv")
+FORMATS = {".jsonl": "jsonl", ".csv": "csv", ".tsv": "tsv"}  # each optionally followed by .gz
+FORMAT_NAMES = ".jsonl, .csv or .tsv (optionally .gz)"
+csv.field_size_limit(min(sys.maxsize, 2**31 - 1))  # long texts in one cell
+
+
+@dataclass
+class Example:
+    """One record of a labelled file; ``line`` counts a CSV/TSV header as line 1."""
+
+    line: int
+    text: str
+    label: str | None = None
+    id: str | None = None
 
 
 @dataclass
@@ -50,19 +70,58 @@ class Task:
         return {"train": len(self.train), "dev": len(self.dev), "test": len(self.test)}
 
 
-def find_split_file(task_dir: Path, split: str) -> Path:
-    found = [task_dir / f"{split}{s}" for s in SUFFIXES if (task_dir / f"{split}{s}").is_file()]
-    if not found:
-        raise InputError(f"task.dir={task_dir}: no {split}.jsonl or {split}.csv; add the {split} split "
-                         f"(one example per line with a text and a label)")
-    if len(found) > 1:
-        raise InputError(f"task.dir={task_dir}: both {found[0].name} and {found[1].name} exist; keep only one")
-    return found[0]
+def labelled_format(path: Path) -> tuple[str | None, bool]:
+    """(format, gzipped) from the file name; the format is None for a name not ending in one of FORMATS."""
+    name = path.name.lower()
+    gz = name.endswith(".gz")
+    name = name[:-3] if gz else name
+    return next((kind for suffix, kind in FORMATS.items() if name.endswith(suffix)), None), gz
 
 
-def _rows_jsonl(path: Path) -> list[tuple[int, dict]]:
+def _split_of(name: str) -> str | None:
+    lower = name.lower()
+    return next((s for s in SPLITS for suffix in FORMATS if lower in (s + suffix, s + suffix + ".gz")), None)
+
+
+def find_split_files(task_dir: Path | str, key: str, required: bool = True) -> dict[str, Path]:
+    """Split -> file of a task folder: ``<split>.jsonl``, ``.csv`` or ``.tsv``, optionally ``.gz``.
+
+    ``key`` is the config key that named the folder. All of SPLITS are needed unless ``required`` is false
+    (the contamination check reads whichever exist). Other files are ignored, with a warning for those whose
+    name starts like a split file's (``train.old.jsonl``, ``test.txt``)."""
+    task_dir = Path(task_dir)
+    if not task_dir.is_dir():
+        problem = "not a folder" if task_dir.exists() else "folder does not exist"
+        raise InputError(f"{key}={task_dir}: {problem}; give a folder with train, dev and test files "
+                         f"({FORMAT_NAMES})")
+    found: dict[str, list[Path]] = {s: [] for s in SPLITS}
+    for f in sorted(p for p in task_dir.iterdir() if p.is_file()):
+        split = _split_of(f.name)
+        if split is not None:
+            found[split].append(f)
+        elif f.name.split(".")[0].lower() in SPLITS:
+            log.warning("%s: ignored; a split file is named train, dev or test followed by %s", f, FORMAT_NAMES)
+    for split, files in found.items():
+        if len(files) > 1:
+            raise InputError(f"{key}={task_dir}: both {files[0].name} and {files[1].name} exist; keep only one "
+                             f"{split} file")
+        if required and not files:
+            raise InputError(f"{key}={task_dir}: no {split} file; add {split}.jsonl, {split}.csv or {split}.tsv "
+                             "(optionally .gz) with one example per line (a text and a label)")
+    return {s: files[0] for s, files in found.items() if files}
+
+
+def _read_bytes(path: Path, gz: bool) -> bytes:
+    try:
+        with (gzip.open(path, "rb") if gz else open(path, "rb")) as fh:
+            return fh.read()
+    except (OSError, EOFError, zlib.error) as exc:
+        raise InputError(f"{path}: cannot be read ({type(exc).__name__}: {exc}); repair or replace it") from exc
+
+
+def _rows_jsonl(path: Path, text: str) -> list[tuple[int, dict]]:
     rows = []
-    for n, line in enumerate(path.read_text(encoding="utf-8").splitlines(), start=1):
+    for n, line in enumerate(text.split("\n"), start=1):  # not splitlines(): U+2028 may sit inside a string
         if not line.strip():
             continue
         try:
@@ -76,43 +135,63 @@ def _rows_jsonl(path: Path) -> list[tuple[int, dict]]:
     return rows
 
 
-def _rows_csv(path: Path) -> list[tuple[int, dict]]:
-    with open(path, encoding="utf-8-sig", newline="") as fh:
-        reader = csv.DictReader(fh)
-        # line numbers count the header as line 1
-        return [(n, row) for n, row in enumerate(reader, start=2)]
-
-
-def read_split(path: Path, text_field: str, label_field: str) -> list[tuple[str, str]]:
-    """(text, label) pairs of one file; one clear error for a missing field or an empty value."""
+def _rows(path: Path) -> list[tuple[int, dict]]:
+    kind, gz = labelled_format(path)
+    if kind is None:
+        raise InputError(f"{path}: not a labelled file; give a {FORMAT_NAMES} file")
     try:
-        rows = _rows_jsonl(path) if path.suffix == ".jsonl" else _rows_csv(path)
+        text = _read_bytes(path, gz).decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         raise InputError(f"{path}: not UTF-8 text ({exc.reason}); save it as UTF-8") from exc
+    if kind == "jsonl":
+        return _rows_jsonl(path, text)
+    try:
+        reader = csv.DictReader(io.StringIO(text, newline=""), delimiter="\t" if kind == "tsv" else ",")
+        return list(enumerate(reader, start=2))  # the header is line 1
+    except csv.Error as exc:
+        raise InputError(f"{path}: broken {kind.upper()} ({exc}); fix the quoting") from exc
+
+
+def read_labelled_file(path: Path | str, text_field: str = "text", label_field: str | None = None,
+                       key_prefix: str = "task") -> list[Example]:
+    """Examples of one labelled file, each with a non-empty text, and a label when ``label_field`` is given.
+
+    ``key_prefix`` is the config group whose ``text_field`` / ``label_field`` chose the fields (task, quality,
+    contamination), named in the messages."""
+    path = Path(path)
+    rows = _rows(path)
+    wanted = [(text_field, "text")] + ([(label_field, "label")] if label_field is not None else [])
     if not rows:
-        raise InputError(f"{path}: no examples; add at least one line with {text_field!r} and {label_field!r}")
-    pairs = []
+        raise InputError(f"{path}: no examples; add at least one line with "
+                         + " and ".join(repr(name) for name, _ in wanted))
+    examples = []
     for n, row in rows:
-        for key, name in ((text_field, "text_field"), (label_field, "label_field")):
-            if key not in row or row[key] is None:
-                raise InputError(f"{path}:{n}: no field {key!r}; set task.{name} to one of {sorted(row)}")
-        text, label = row[text_field], row[label_field]
+        for name, what in wanted:
+            if row.get(name) is None:
+                found = sorted(k for k in row if k is not None)
+                raise InputError(f"{path}:{n}: no field {name!r} (found {found}); set {key_prefix}.{what}_field "
+                                 "to one of them")
+        text = row[text_field]
         if not isinstance(text, str) or not text.strip():
             raise InputError(f"{path}:{n}: field {text_field!r} is empty or not text; give every example a text")
-        if isinstance(label, (dict, list)) or str(label).strip() == "":
-            raise InputError(f"{path}:{n}: field {label_field!r} must be a single non-empty label, got {label!r}")
-        pairs.append((text, str(label).strip()))
-    return pairs
+        label = None
+        if label_field is not None:
+            label = row[label_field]
+            if isinstance(label, (dict, list)) or str(label).strip() == "":
+                raise InputError(f"{path}:{n}: field {label_field!r} must be a single non-empty label, "
+                                 f"got {label!r}")
+            label = str(label).strip()
+        rid = row.get("id")
+        examples.append(Example(n, text, label, None if rid in (None, "") else str(rid)))
+    return examples
 
 
 def read_task(task_dir: Path | str, text_field: str = "text", label_field: str = "label") -> Task:
     """Read and check train/dev/test of a task folder."""
     task_dir = Path(task_dir)
-    if not task_dir.is_dir():
-        raise InputError(f"task.dir={task_dir}: folder does not exist; give a folder with train, dev and test "
-                         f"files (.jsonl or .csv)")
-    files = {s: find_split_file(task_dir, s) for s in SPLITS}
-    pairs = {s: read_split(files[s], text_field, label_field) for s in SPLITS}
+    files = find_split_files(task_dir, "task.dir")
+    pairs = {s: [(e.text, e.label) for e in read_labelled_file(files[s], text_field, label_field, "task")]
+             for s in SPLITS}
     counts = Counter(label for _, label in pairs["train"])
     if len(counts) < 2:
         raise InputError(f"{files['train']}: only {len(counts)} class ({', '.join(counts)}); a classification task "

@@ -16,6 +16,15 @@ from adapt.common.io import atomic_write_json, hash_inputs, now_utc, read_json, 
 
 MANIFEST = "manifest.json"
 
+# How the command line started this job (run or sweep, its overrides); None when called as a library.
+_LAUNCH: dict[str, Any] | None = None
+
+
+def record_launch(**launch: Any) -> None:
+    """Set the launch record that every manifest written from now on carries (called by the CLI per job)."""
+    global _LAUNCH
+    _LAUNCH = to_jsonable(launch)
+
 
 class RunFolder:
     """An output folder with its manifest. ``finish()`` stamps the end time and the outcome."""
@@ -30,6 +39,7 @@ class RunFolder:
             "tool_version": __version__,
             "job": job,
             "config": to_jsonable(config),
+            "launch": _LAUNCH,
             "inputs": hash_inputs(inputs),
             "seed": seed,
             "host": socket.gethostname(),

@@ -1,18 +1,66 @@
-"""Read text sets: a prepared corpus folder (its Parquet split), or loose files in any format prepare reads.
+"""The prepared corpus on disk: the one writer (prepare) and the one reader (pretrain, score) of its shards.
 
-This is the one reader every stage uses for the prepare stage's output contract:
-``<corpus>/train/*.parquet`` and ``<corpus>/heldout/*.parquet`` with at least the columns ``id`` and ``text``.
+``<corpus>/train/part-NNNNN.parquet`` and ``<corpus>/heldout/part-NNNNN.parquet`` with the columns of
+``OUTPUT_SCHEMA`` (readers need at least ``id`` and ``text``), ``removed.parquet`` (``REMOVED_SCHEMA``),
+``profile.json`` and ``profile.md``. ``read_texts`` also reads loose files in any format prepare reads.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
+import pyarrow as pa
 import pyarrow.parquet as pq
 
 from adapt.common.errors import InputError
+from adapt.common.io import atomic_write_with
 
 SPLITS = ("train", "heldout")
+SHARD_GLOB = "part-*.parquet"
+OUTPUT_SCHEMA = pa.schema([("id", pa.string()), ("text", pa.string()), ("source", pa.string()),
+                           ("quality", pa.float32()), ("cluster_id", pa.int64()), ("cluster_size", pa.int32()),
+                           ("words", pa.int32())])
+REMOVED_SCHEMA = pa.schema([("id", pa.string()), ("reason", pa.string()), ("detail", pa.string()),
+                            ("source", pa.string())])
+REPORT_FILES = ("removed.parquet", "profile.json", "profile.md")
+
+
+class ShardWriter:
+    """Rows into ``folder/part-00000.parquet``, ``part-00001``..., at most ``shard_docs`` rows each, each shard
+    written atomically. At least one (possibly empty) shard is always written."""
+
+    def __init__(self, folder: Path, schema: pa.Schema, shard_docs: int):
+        self.folder, self.schema, self.shard_docs = Path(folder), schema, shard_docs
+        self.folder.mkdir(parents=True, exist_ok=True)
+        self.rows: list[dict] = []
+        self.shards = 0
+        self.count = 0
+
+    def add(self, row: dict) -> None:
+        self.rows.append(row)
+        self.count += 1
+        if len(self.rows) >= self.shard_docs:
+            self._flush()
+
+    def _flush(self) -> None:
+        table = pa.Table.from_pylist(self.rows, schema=self.schema)
+        shard = self.folder / f"part-{self.shards:05d}.parquet"
+        atomic_write_with(shard, lambda tmp: pq.write_table(table, str(tmp)))
+        self.shards += 1
+        self.rows = []
+
+    def close(self) -> None:
+        if self.rows or self.shards == 0:
+            self._flush()
+
+
+def clear_prepared(out_dir: Path) -> None:
+    """Remove the outputs of an earlier prepare run in ``out_dir`` (only files the prepare job writes)."""
+    for split in SPLITS:
+        for f in (Path(out_dir) / split).glob(SHARD_GLOB):
+            f.unlink()
+    for name in REPORT_FILES:
+        (Path(out_dir) / name).unlink(missing_ok=True)
 
 
 def is_prepared_corpus(path: Path | str) -> bool:
@@ -26,9 +74,9 @@ def read_prepared(corpus_dir: Path | str, split: str, columns: list[str] | None 
     split_dir = corpus_dir / split
     if not split_dir.is_dir():
         raise InputError(f"{corpus_dir}: no {split}/ folder; is this the output folder of the prepare job?")
-    shards = sorted(split_dir.glob("*.parquet"))
+    shards = sorted(split_dir.glob(SHARD_GLOB))
     if not shards:
-        raise InputError(f"{split_dir}: no .parquet shards; run the prepare job into {corpus_dir} again")
+        raise InputError(f"{split_dir}: no {SHARD_GLOB} shards; run the prepare job into {corpus_dir} again")
     rows: list[dict] = []
     for shard in shards:
         table = pq.read_table(shard, columns=columns)
@@ -42,7 +90,8 @@ def read_texts(path: Path | str, split: str = "heldout", text_field: str = "text
     """Documents as dicts with ``id`` and ``text`` from a prepared corpus or from loose files."""
     path = Path(path)
     if not path.exists():
-        raise InputError(f"{path}: does not exist; give a prepared corpus folder or text files (.txt, .jsonl, .csv, .parquet, .gz)")
+        raise InputError(f"{path}: does not exist; give a prepared corpus folder or text files "
+                         "(.txt, .jsonl, .csv, .parquet, .gz)")
     if is_prepared_corpus(path):
         return [{"id": str(r.get("id", i)), "text": r["text"]}
                 for i, r in enumerate(read_prepared(path, split, columns=None))]
@@ -54,5 +103,6 @@ def read_texts(path: Path | str, split: str = "heldout", text_field: str = "text
             for d in read_documents([str(path)], ReadConfig(text_field=text_field), ReadStats())]
     docs = [d for d in docs if d["text"] and d["text"].strip()]
     if not docs:
-        raise InputError(f"{path}: no readable documents (.txt, .jsonl, .csv, .parquet, optionally .gz, with non-empty text)")
+        raise InputError(f"{path}: no readable documents (.txt, .jsonl, .csv, .parquet, optionally .gz, "
+                         "with non-empty text)")
     return docs

@@ -24,8 +24,11 @@ ENTITY_RE = re.compile(r"&(?:[a-zA-Z]{2,8}|#[0-9]{1,7}|#x[0-9a-fA-F]{1,6});")
 CONTROL_RE = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\u00ad\u200b-\u200d\u2060-\u2064\ufeff]")
 SPACE_RE = re.compile(r"[ \t\u00a0\u1680\u2000-\u200a\u202f\u205f\u3000]+")
 BLANKS_RE = re.compile(r"\n{3,}")
-# UTF-8 read as cp1252: a lead byte (Â..ô) followed by 1-3 continuation bytes (0x80-0xBF in cp1252).
-_CONT = bytes(range(0x80, 0xC0)).decode("cp1252", errors="ignore")
+# UTF-8 read as cp1252: a lead byte (Â..ô) followed by 1-3 continuation bytes (0x80-0xBF in cp1252). cp1252 leaves
+# 0x81, 0x8D, 0x8F, 0x90 and 0x9D undefined; decoders that do not fail keep them as the C1 control of the same number
+# (WHATWG Encoding Standard, index-windows-1252), so those count as continuation bytes too.
+_CP1252_UNDEFINED = "\x81\x8d\x8f\x90\x9d"
+_CONT = bytes(range(0x80, 0xC0)).decode("cp1252", errors="ignore") + _CP1252_UNDEFINED
 MOJIBAKE_RE = re.compile("[\u00c2-\u00f4][" + re.escape(_CONT) + "]{1,3}")
 
 SKIP_TAGS = {"script", "style", "noscript", "template", "svg", "head", "nav"}
@@ -79,7 +82,8 @@ def repair_mojibake(text: str) -> tuple[str, int]:
     def fix(m: re.Match) -> str:
         nonlocal count
         try:
-            out = m.group(0).encode("cp1252").decode("utf-8")
+            raw = b"".join(bytes([ord(c)]) if c in _CP1252_UNDEFINED else c.encode("cp1252") for c in m.group(0))
+            out = raw.decode("utf-8")
         except UnicodeError:
             return m.group(0)
         count += 1
@@ -114,17 +118,23 @@ def normalise_text(text: str, strip_html: bool = True, fix_mojibake: bool = True
     return CleanResult(text, markup_share, controls, repairs)
 
 
-def line_key(line: str) -> str:
-    return " ".join(line.lower().split())
+def fold_text(text: str) -> str:
+    """Lower-cased, whitespace runs made one space, trimmed: the form lines and documents are compared in."""
+    return " ".join(text.lower().split())
 
 
 def hash64(text: str) -> int:
     return int.from_bytes(hashlib.blake2b(text.encode("utf-8"), digest_size=8).digest(), "little")
 
 
+def document_key(text: str) -> int:
+    """Exact-duplicate key of a cleaned document: copies differing only in case or whitespace share it."""
+    return hash64(fold_text(text))
+
+
 def line_keys(text: str, min_line_chars: int) -> np.ndarray:
     """Distinct 64-bit hashes of the document's lines long enough to count as boilerplate candidates."""
-    keys = {hash64(k) for k in (line_key(ln) for ln in text.split("\n")) if len(k) >= min_line_chars}
+    keys = {hash64(k) for k in (fold_text(ln) for ln in text.split("\n")) if len(k) >= min_line_chars}
     return np.fromiter(keys, dtype=np.uint64, count=len(keys))
 
 
@@ -146,7 +156,7 @@ def remove_lines(text: str, frequent: frozenset[int], min_line_chars: int) -> tu
         return text, 0
     kept, removed = [], 0
     for ln in text.split("\n"):
-        k = line_key(ln)
+        k = fold_text(ln)
         if len(k) >= min_line_chars and hash64(k) in frequent:
             removed += 1
             continue

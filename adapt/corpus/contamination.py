@@ -14,8 +14,9 @@ from pathlib import Path
 import numpy as np
 
 from adapt.config.prepare import TASK_SPLITS, ContaminationConfig
+from adapt.contracts.labelled_task import FORMAT_NAMES, find_split_files, read_labelled_file
+from adapt.corpus.cleaning import fold_text
 from adapt.corpus.minhash import Shingler
-from adapt.corpus.readers import file_kind, read_labelled_file
 from adapt.common.errors import InputError
 
 log = logging.getLogger(__name__)
@@ -29,21 +30,16 @@ class TaskText:
 
 
 def load_task_texts(task_dir: Path, text_field: str) -> list[TaskText]:
-    """Texts of the train/dev/test files (.jsonl or .csv, optionally .gz) in ``task_dir``."""
-    if not task_dir.is_dir():
-        raise InputError(f"contamination.task_dir={task_dir}: not a folder; give the folder holding "
-                         "train/dev/test .jsonl or .csv files, or contamination.task_dir=null")
+    """Texts of the split files of ``task_dir`` that exist, found and read exactly as the compare job does."""
+    key = "contamination.task_dir"
+    files = find_split_files(task_dir, key, required=False)
+    if not files:
+        raise InputError(f"{key}={task_dir}: no train/dev/test file ({FORMAT_NAMES}); check {key}, or set "
+                         f"{key}=null to skip the check")
     texts: list[TaskText] = []
-    for f in sorted(task_dir.iterdir()):
-        kind, _ = file_kind(f)
-        split = f.name.split(".")[0]
-        if kind not in ("jsonl", "csv") or split not in TASK_SPLITS:
-            continue
-        for i, rec in enumerate(read_labelled_file(f, [text_field], "contamination.text_field")):
-            texts.append(TaskText(split, str(rec.get("id", f"{split}:{i}")), str(rec[text_field])))
-    if not texts:
-        raise InputError(f"contamination.task_dir={task_dir}: no train/dev/test .jsonl or .csv files with a "
-                         f"{text_field!r} field; check contamination.task_dir and contamination.text_field")
+    for split, f in files.items():
+        for i, ex in enumerate(read_labelled_file(f, text_field, key_prefix="contamination")):
+            texts.append(TaskText(split, ex.id if ex.id is not None else f"{split}:{i}", ex.text))
     return texts
 
 
@@ -65,7 +61,7 @@ class TaskIndex:
         for i, t in enumerate(self.texts):
             words, _ = shingler.word_hashes([t.text])
             if words.size < self.ngram_words:
-                self.short_[i] = " ".join(t.text.lower().split())
+                self.short_[i] = fold_text(t.text)
                 sizes.append(0)
                 continue
             s = shingler.shingles(t.text)
@@ -100,7 +96,7 @@ def find_overlaps(text: str, index: TaskIndex, shingler: Shingler, min_containme
             share = hits / np.maximum(index.size_, 1)
             found += [Overlap(int(i), float(share[i])) for i in np.flatnonzero(share >= min_containment)]
     if index.short_:
-        flat = " ".join(text.lower().split())
+        flat = fold_text(text)
         found += [Overlap(i, 1.0) for i, s in index.short_.items() if s and s in flat]
     return found
 

@@ -181,7 +181,7 @@ def filter_chunk(chunk: list[dict]) -> ChunkResult:
     res = ChunkResult()
     survivors = _late_filters(_early_filters(chunk, res), res)
     for d in survivors:
-        d["doc_hash"] = cleaning.hash64(" ".join(d["text"].lower().split()))
+        d["doc_hash"] = cleaning.document_key(d["text"])
     res.kept = survivors
     if _STATE["minhash"] is not None:
         res.signatures = _STATE["minhash"].signatures([d["text"] for d in survivors])

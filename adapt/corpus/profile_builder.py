@@ -16,6 +16,7 @@ import pyarrow.parquet as pq
 
 from adapt.config.prepare import PRIVACY_KINDS, PrepareJob
 from adapt.corpus import charsets, privacy
+from adapt.common.io import atomic_write_with
 from adapt.corpus.docwork import STAGES, ChunkResult
 
 log = logging.getLogger(__name__)
@@ -170,9 +171,7 @@ class ProfileBuilder:
     def write_removed(self, path: Path, schema: pa.Schema) -> None:
         cols = list(zip(*self.removed_rows)) if self.removed_rows else [[], [], [], []]
         table = pa.table({name: list(col) for name, col in zip(schema.names, cols)}, schema=schema)
-        tmp = path.with_name(f".{path.name}.tmp")
-        pq.write_table(table, tmp)
-        tmp.replace(path)
+        atomic_write_with(path, lambda tmp: pq.write_table(table, str(tmp)))
 
     def markdown(self) -> str:
         from adapt.corpus.profile_markdown import render_markdown

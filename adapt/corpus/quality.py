@@ -26,8 +26,8 @@ from sklearn.preprocessing import FunctionTransformer, StandardScaler
 from threadpoolctl import threadpool_limits
 
 from adapt.config.prepare import QualityConfig
+from adapt.contracts.labelled_task import FORMAT_NAMES, read_labelled_file
 from adapt.corpus.cleaning import normalise_text
-from adapt.corpus.readers import read_labelled_file
 from adapt.corpus.stopwords import STOPWORDS
 from adapt.common.errors import InputError
 
@@ -138,19 +138,19 @@ def heuristic_model(language: str) -> QualityModel:
 
 def load_gold(path: Path, cfg: QualityConfig) -> tuple[list[tuple[str, float]], np.ndarray]:
     if not path.is_file():
-        raise InputError(f"quality.gold_path={path}: file not found; give a .jsonl/.csv gold set with "
+        raise InputError(f"quality.gold_path={path}: file not found; give a {FORMAT_NAMES} gold set with "
                          f"{cfg.text_field} and {cfg.label_field} (good/poor), or quality.gold_path=null "
                          "for the heuristic score")  # also checked before any work by prepare.run
-    rows = read_labelled_file(path, [cfg.text_field, cfg.label_field], "quality.text_field/quality.label_field")
-    bad = sorted({str(r[cfg.label_field]) for r in rows} - set(LABELS))
+    rows = read_labelled_file(path, cfg.text_field, cfg.label_field, key_prefix="quality")
+    bad = sorted({r.label for r in rows} - set(LABELS))
     if bad:
         raise InputError(f"quality.gold_path={path}: labels {bad[:5]} are not good/poor; relabel them "
                          f"or set quality.label_field to the right field")
     records = []
     for r in rows:
-        cleaned = normalise_text(str(r[cfg.text_field]))
+        cleaned = normalise_text(r.text)
         records.append((cleaned.text, cleaned.markup_share))
-    return records, np.array([LABELS[str(r[cfg.label_field])] for r in rows])
+    return records, np.array([LABELS[r.label] for r in rows])
 
 
 def train_quality_model(path: Path, cfg: QualityConfig, language: str, seed: int) -> QualityModel:

@@ -8,7 +8,7 @@ favour whichever arm happened to keep one.
 
 from __future__ import annotations
 
-import contextlib
+import functools
 import logging
 import math
 import time
@@ -19,13 +19,14 @@ from sklearn.feature_extraction.text import TfidfVectorizer
 from sklearn.linear_model import LogisticRegression
 from sklearn.metrics import accuracy_score, f1_score
 from tqdm.auto import tqdm
-from transformers import AutoConfig, AutoModel, AutoTokenizer, PreTrainedTokenizerBase
+from transformers import PreTrainedTokenizerBase
 
 from adapt.config.common import RuntimeConfig
 from adapt.config.compare import FinetuneConfig
-from adapt.common.errors import InputError
-from adapt.common.runtime import resolve_device
+from adapt.common.runtime import autocast_context, resolve_device
 from adapt.contracts.labelled_task import Task
+from adapt.training.encoder import check_loadable, load_body, open_tokenizer
+from adapt.training.optimizer import build_adamw
 
 log = logging.getLogger(__name__)
 
@@ -87,37 +88,17 @@ class MeanPoolClassifier(torch.nn.Module):
         return self.head(self.dropout(mean_pool(hidden, attention_mask)))  # (B, num_labels)
 
 
-def autocast_for(runtime: RuntimeConfig, device: torch.device):
-    """A context-manager factory: bf16 autocast when asked for, else nothing."""
-    if runtime.precision == "bf16":
-        return lambda: torch.autocast(device_type=device.type, dtype=torch.bfloat16)
-    return contextlib.nullcontext
-
-
-def _unloadable(arm: str, checkpoint: str, exc: Exception) -> InputError:
-    return InputError(f"arms.{arm}={checkpoint}: cannot load an encoder ({type(exc).__name__}: "
-                      f"{str(exc).splitlines()[0][:160]}); give a folder with config.json, weights and "
-                      f"tokenizer files")
-
-
-def check_checkpoint(checkpoint: str, arm: str = "arm") -> None:
+def check_checkpoint(checkpoint: str, arm: str = "arm", trust_remote_code: bool = False) -> None:
     """Cheap early check that the tokenizer and config of ``checkpoint`` load (no weights are read)."""
-    try:
-        AutoConfig.from_pretrained(checkpoint)
-        AutoTokenizer.from_pretrained(checkpoint)
-    except (OSError, ValueError) as exc:
-        raise _unloadable(arm, checkpoint, exc) from exc
+    check_loadable(checkpoint, trust_remote_code, f"arms.{arm}={checkpoint}")
 
 
-def load_classifier(checkpoint: str, num_labels: int, dropout: float, seed: int,
-                    arm: str = "arm") -> tuple[MeanPoolClassifier, PreTrainedTokenizerBase]:
-    """Encoder body of ``checkpoint`` (fp32, no remote code) under a fresh seeded head, and its tokenizer."""
-    try:
-        tokenizer = AutoTokenizer.from_pretrained(checkpoint)
-        torch.manual_seed(seed)  # any weight the checkpoint lacks (e.g. an unused pooler) is initialised alike
-        body = AutoModel.from_pretrained(checkpoint, dtype=torch.float32)
-    except (OSError, ValueError) as exc:
-        raise _unloadable(arm, checkpoint, exc) from exc
+def load_classifier(checkpoint: str, num_labels: int, dropout: float, seed: int, arm: str = "arm",
+                    trust_remote_code: bool = False) -> tuple[MeanPoolClassifier, PreTrainedTokenizerBase]:
+    """Encoder body of ``checkpoint`` (fp32) under a fresh seeded head, and its tokenizer."""
+    tokenizer = open_tokenizer(checkpoint, trust_remote_code, f"arms.{arm}={checkpoint}")
+    torch.manual_seed(seed)  # any weight the checkpoint lacks (e.g. an unused pooler) is initialised alike
+    body = load_body(checkpoint, trust_remote_code, f"arms.{arm}={checkpoint}")
     torch.manual_seed(seed)
     return MeanPoolClassifier(body, num_labels, dropout, seed), tokenizer
 
@@ -151,14 +132,8 @@ def predict(model: MeanPoolClassifier, tokenizer: PreTrainedTokenizerBase, ids: 
 
 
 def _optimizer(model: torch.nn.Module, cfg: FinetuneConfig, total_steps: int, device: torch.device):
-    # no weight decay on biases and LayerNorm weights (common practice since BERT)
-    decay, no_decay = [], []
-    for name, param in model.named_parameters():
-        (no_decay if param.ndim < 2 or "LayerNorm" in name or "layer_norm" in name else decay).append(param)
     # the fused kernel made the MiniLM update ~5x faster on CPU (27 vs 145 ms per step, 1 thread)
-    opt = torch.optim.AdamW([{"params": decay, "weight_decay": cfg.weight_decay},
-                             {"params": no_decay, "weight_decay": 0.0}], lr=cfg.learning_rate,
-                            fused=device.type in ("cpu", "cuda"))
+    opt = build_adamw(model, cfg.learning_rate, cfg.weight_decay, device)
     warmup = int(round(cfg.warmup_share * total_steps))
 
     def factor(step: int) -> float:  # linear warmup to the peak, then linear decay to 0
@@ -170,12 +145,15 @@ def _optimizer(model: torch.nn.Module, cfg: FinetuneConfig, total_steps: int, de
 
 
 def finetune(checkpoint: str, task: Task, cfg: FinetuneConfig, max_seq_len: int, seed: int,
-             runtime: RuntimeConfig, arm: str = "arm") -> ArmResult:
-    """Fine-tune on train, pick the epoch on dev (``cfg.select_epoch``), evaluate that model on test."""
+             runtime: RuntimeConfig, arm: str = "arm", precision: str = "fp32",
+             trust_remote_code: bool = False) -> ArmResult:
+    """Fine-tune on train, pick the epoch on dev (``cfg.select_epoch``), evaluate that model on test.
+
+    ``precision`` is the resolved one ("fp32" or "bf16", see ``adapt.common.runtime.resolve_precision``)."""
     started = time.perf_counter()
     device = resolve_device(runtime)
-    autocast = autocast_for(runtime, device)
-    model, tokenizer = load_classifier(checkpoint, len(task.labels), cfg.dropout, seed, arm)
+    autocast = functools.partial(autocast_context, precision, device)
+    model, tokenizer = load_classifier(checkpoint, len(task.labels), cfg.dropout, seed, arm, trust_remote_code)
     model.to(device)
     train_ids = encode(tokenizer, task.train.texts, max_seq_len)
     dev_ids = encode(tokenizer, task.dev.texts, max_seq_len)

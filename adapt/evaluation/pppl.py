@@ -21,7 +21,6 @@ costs more than a small encoder's body) runs only at the one scored position of 
 
 from __future__ import annotations
 
-import contextlib
 import logging
 import time
 from dataclasses import dataclass
@@ -33,6 +32,7 @@ from transformers import PreTrainedModel, PreTrainedTokenizerBase
 
 from adapt.config.score import VARIANTS
 from adapt.common.errors import ConfigError
+from adapt.common.runtime import autocast_context
 from adapt.training.encoder import encoder_body, mlm_head
 
 log = logging.getLogger(__name__)
@@ -67,10 +67,6 @@ class _Windows:
     scored: list[np.ndarray]  # per window: positions to score
 
 
-def _autocast(device: torch.device, precision: str) -> contextlib.AbstractContextManager:
-    return torch.autocast(device_type=device.type, dtype=torch.bfloat16, enabled=precision == "bf16")
-
-
 def position_log_probs(model: PreTrainedModel, input_ids: torch.Tensor, attention_mask: torch.Tensor,
                        positions: torch.Tensor, targets: torch.Tensor, *, precision: str = "fp32",
                        masked_head_only: bool = True) -> torch.Tensor:
@@ -81,7 +77,7 @@ def position_log_probs(model: PreTrainedModel, input_ids: torch.Tensor, attentio
     """
     head = mlm_head(model) if masked_head_only else None
     rows = torch.arange(input_ids.shape[0], device=input_ids.device)
-    with torch.inference_mode(), _autocast(input_ids.device, precision):
+    with torch.inference_mode(), autocast_context(precision, input_ids.device):
         if head is not None:
             hidden = encoder_body(model)(input_ids=input_ids, attention_mask=attention_mask)[0]  # (B, L, H)
             logits = head(hidden[rows, positions])  # (B, V)

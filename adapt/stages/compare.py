@@ -12,12 +12,11 @@ import logging
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from adapt.config.common import PACKAGED_ENCODER
 from adapt.config.compare import METRIC_NAMES, METRICS, TFIDF_ARM, CompareJob
-from adapt.common.errors import InputError
 from adapt.contracts.manifest import RunFolder
 from adapt.common.io import atomic_write_json, atomic_write_text
 from adapt.contracts.labelled_task import Task, read_task
+from adapt.contracts.model_folder import resolve_model_folder
 
 # torch, transformers, scikit-learn and scipy are imported only after the inputs have been checked, so that a
 # wrong path fails within a second or two instead of after the slow imports
@@ -32,38 +31,26 @@ CAUTION = ("These are research measurements on a benchmark task, not legal or me
 
 def resolve_checkpoint(arm: str, name_or_path: str) -> str:
     """Folder of an arm's checkpoint: the packaged alias, a model folder, or a pretrain run folder's final/."""
-    if name_or_path == PACKAGED_ENCODER:
-        from adapt.training.encoder import resolve_encoder_path
-
-        name_or_path = resolve_encoder_path(name_or_path)
-    path = Path(name_or_path)
-    if not (path / "config.json").is_file() and (path / "final" / "config.json").is_file():
-        log.info("arms.%s: using %s", arm, path / "final")
-        path = path / "final"
-    if not path.is_dir():
-        raise InputError(f"arms.{arm}={name_or_path}: folder does not exist; give a checkpoint folder, a pretrain "
-                         f"run folder with final/, or packaged:all-minilm-l6-v2")
-    if not (path / "config.json").is_file():
-        raise InputError(f"arms.{arm}={name_or_path}: no config.json in the folder; give a checkpoint folder "
-                         f"(config.json, weights, tokenizer files) or a pretrain run folder with final/")
-    return str(path)
+    return resolve_model_folder(name_or_path, f"arms.{arm}", allow_model_id=False)
 
 
 def _ordered_arms(cfg: CompareJob) -> list[str]:
     return [cfg.reference_arm] + [a for a in cfg.arms if a != cfg.reference_arm]
 
 
-def _run_arms(cfg: CompareJob, task: Task, checkpoints: dict[str, str]) -> dict[str, list[ArmResult]]:
+def _run_arms(cfg: CompareJob, task: Task, checkpoints: dict[str, str],
+              precision: str) -> dict[str, list[ArmResult]]:
     from tqdm.auto import tqdm
 
     from adapt.evaluation.finetune import check_checkpoint, finetune, tfidf_baseline
 
     for arm, path in checkpoints.items():  # fail before any training if a tokenizer or config is unusable
-        check_checkpoint(path, arm)
+        check_checkpoint(path, arm, trust_remote_code=cfg.trust_remote_code)
     results: dict[str, list[ArmResult]] = {}
     runs = [(arm, seed) for arm in _ordered_arms(cfg) for seed in cfg.seeds]
     for i, (arm, seed) in enumerate(tqdm(runs, desc="compare", unit="run", disable=not cfg.runtime.progress), 1):
-        res = finetune(checkpoints[arm], task, cfg.finetune, cfg.task.max_seq_len, seed, cfg.runtime, arm=arm)
+        res = finetune(checkpoints[arm], task, cfg.finetune, cfg.task.max_seq_len, seed, cfg.runtime, arm=arm,
+                       precision=precision, trust_remote_code=cfg.trust_remote_code)
         log.info("[%d/%d] %s seed %d: test accuracy %.3f, macro-F1 %.3f (epoch %d, %.1f s)", i, len(runs), arm,
                  seed, res.test_accuracy, res.test_macro_f1, res.selected_epoch, res.seconds)
         results.setdefault(arm, []).append(res)
@@ -179,16 +166,18 @@ def run(cfg: CompareJob) -> dict:
     """Fine-tune and evaluate every arm × seed, run the paired tests, write the outputs."""
     task = read_task(cfg.task.dir, cfg.task.text_field, cfg.task.label_field)
     checkpoints = {arm: resolve_checkpoint(arm, cfg.arms[arm]) for arm in _ordered_arms(cfg)}
-    from adapt.common.runtime import apply_threads  # imports torch: only after the inputs were checked
+    # imports torch: only after the inputs were checked
+    from adapt.common.runtime import apply_threads, resolve_device, resolve_precision
 
     apply_threads(cfg.runtime)
+    precision = resolve_precision(cfg.runtime, resolve_device(cfg.runtime))  # once for every arm × seed
     folder = RunFolder(cfg.out_dir, "compare", cfg, inputs=task.files + [Path(c) for c in checkpoints.values()],
                        seed=cfg.significance.seed)
     try:
-        results = _run_arms(cfg, task, checkpoints)
+        results = _run_arms(cfg, task, checkpoints, precision.precision)
         tests, verdicts = _tests(cfg, task, results)
     except BaseException:
-        folder.finish(status="failed")
+        folder.finish(status="failed", precision=precision.record())
         raise
     conf = cfg.significance.confidence
     doc = {"task": {"dir": str(task.dir), "labels": task.labels, "sizes": task.sizes,
@@ -196,11 +185,11 @@ def run(cfg: CompareJob) -> dict:
            "seeds": list(cfg.seeds), "confidence": conf, "reference_arm": cfg.reference_arm,
            "arms": {arm: _arm_record(checkpoints.get(arm, "tfidf+logistic-regression"), runs, conf)
                     for arm, runs in results.items()},
-           "tests": tests, "verdict": verdicts, "caution": CAUTION}
+           "tests": tests, "verdict": verdicts, "precision": precision.precision, "caution": CAUTION}
     out = Path(cfg.out_dir)
     atomic_write_json(out / "comparison.json", doc)
     _write_predictions(out / "predictions.jsonl", task, results)
     atomic_write_text(out / "comparison.md", render_markdown(doc))
-    folder.finish(outputs=["comparison.json", "predictions.jsonl", "comparison.md"])
+    folder.finish(outputs=["comparison.json", "predictions.jsonl", "comparison.md"], precision=precision.record())
     lines = summary_lines(doc) + [f"wrote {out / 'comparison.md'}"]
     return {"summary": lines, "comparison": doc, "out_dir": str(out)}

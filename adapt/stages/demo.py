@@ -1,4 +1,5 @@
-"""The demo job: prepare -> pretrain -> score -> compare on the invented samples, with timings and cautions.
+"""The demo job: prepare -> pretrain -> score -> compare -> report on the invented samples, with timings and
+cautions.
 
 It only chains the stages' ``run`` functions with the folder contracts between them; every stage can also be
 run alone with its own command.
@@ -13,16 +14,10 @@ from pathlib import Path
 
 from adapt.config.demo import DemoJob
 from adapt.contracts.manifest import RunFolder
+from adapt.common.cautions import CAUTIONS
 from adapt.common.io import atomic_write_json
 
 log = logging.getLogger(__name__)
-
-CAUTIONS = [
-    "Cautions: the demo texts are invented. With real legal or clinical text, de-identify before training,",
-    "follow the data-protection law that applies to you and your institution's governance (ethics approval,",
-    "data-processing agreements), and keep trained models inside that governance: they may memorise rare strings.",
-    "These numbers are research measurements, not legal or medical advice.",
-]
 
 
 def _timed(timings: dict, name: str, fn, *args):
@@ -34,7 +29,7 @@ def _timed(timings: dict, name: str, fn, *args):
 
 
 def run(cfg: DemoJob) -> dict:
-    from adapt.stages import compare, prepare, pretrain, score
+    from adapt.stages import compare, prepare, pretrain, report, score
 
     out = Path(cfg.out_dir)
     folder = RunFolder(out, "demo", cfg, [], cfg.pretrain.seed)
@@ -54,6 +49,7 @@ def run(cfg: DemoJob) -> dict:
                 encoder=dataclasses.replace(cfg.score.encoder, name_or_path=checkpoint, random_init=False))
             scores[(arm, text_name)] = _timed(timings, f"score {arm} on {text_name}", score.run, job)
     comparison = _timed(timings, "compare", compare.run, dataclasses.replace(cfg.compare, arms=arms))
+    reported = _timed(timings, "report", report.run, cfg.report)
 
     summary = [f"demo on the invented {cfg.domain} samples (encoder {cfg.pretrain.encoder.name_or_path})", ""]
     summary += trained["summary"] + [""]
@@ -66,10 +62,10 @@ def run(cfg: DemoJob) -> dict:
         summary.append(f"  {text_name + ' text':<13} " + "   ".join(parts))
     summary += [""] + comparison["summary"] + [""]
     summary.append("stage times (s): " + ", ".join(f"{k} {v}" for k, v in timings.items()))
-    summary.append(f"outputs: {out} (prepared/, pretrain/final/, score/, compare/comparison.md)")
-    summary += [""] + CAUTIONS
+    summary.append(f"outputs: {out} (prepared/, pretrain/final/, score/, compare/comparison.md, report/)")
+    summary += [""] + CAUTIONS + ["", f"report: {Path(reported['html']).resolve()}"]
     atomic_write_json(out / "demo.json", {"timings_seconds": timings, "scores": {
         f"{a}-{t}": {k: v for k, v in s.items() if k != "per_document"} for (a, t), s in scores.items()},
-        "comparison": str(Path(cfg.compare.out_dir) / "comparison.json")})
+        "comparison": str(Path(cfg.compare.out_dir) / "comparison.json"), "report": reported["html"]})
     folder.finish("completed", timings_seconds=timings)
     return {"out_dir": str(out), "timings": timings, "summary": summary}

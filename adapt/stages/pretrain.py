@@ -15,13 +15,14 @@ from pathlib import Path
 from typing import Any
 
 import torch
-from accelerate import Accelerator
+from accelerate import Accelerator, PartialState
+from accelerate.utils import broadcast_object_list
 from tqdm.auto import tqdm
 from transformers import get_scheduler
 
 from adapt.common.errors import ConfigError, InputError
 from adapt.common.io import atomic_write_json
-from adapt.common.runtime import apply_threads, resolve_device
+from adapt.common.runtime import PrecisionChoice, announce_precision, apply_threads, resolve_device, resolve_precision
 from adapt.common.seeding import step_seed
 from adapt.config.common import optional_str
 from adapt.config.pretrain import PretrainJob
@@ -34,27 +35,28 @@ from adapt.training.encoder import load_mlm, load_tokenizer, unwrap_peft
 from adapt.training.export import export_checkpoint, measure_pppl, write_model_card
 from adapt.training.head_warmup import warm_up_head
 from adapt.training.mlm_loss import FixedMaskEval, MaskedOnlyMlm, MaskingPlan
+from adapt.training.optimizer import build_adamw
 from adapt.training.packing import BatchCursor, PackedSequences, pack_documents
 from adapt.training.stop_signal import StopSignal
 
 log = logging.getLogger(__name__)
 
 
-def _accelerator(cfg: PretrainJob) -> Accelerator:
+def _accelerator(cfg: PretrainJob) -> tuple[Accelerator, PrecisionChoice]:
     apply_threads(cfg.runtime)
-    return Accelerator(cpu=resolve_device(cfg.runtime).type == "cpu", mixed_precision="bf16" if cfg.runtime.precision == "bf16" else "no")
+    cpu = resolve_device(cfg.runtime).type == "cpu"
+    state = PartialState(cpu=cpu)  # starts the process group, so that the processes can agree on the precision
+    precision = resolve_precision(cfg.runtime, state.device, announce=False)
+    if state.num_processes > 1:  # a timing probe may differ between processes: all autocast as rank 0 chose
+        precision = broadcast_object_list([precision])[0]
+    if state.is_main_process:
+        announce_precision(precision)
+    return Accelerator(cpu=cpu, mixed_precision="bf16" if precision.precision == "bf16" else "no"), precision
 
 
-def _optimizer(model: torch.nn.Module, cfg: PretrainJob) -> torch.optim.Optimizer:
-    decay, no_decay = [], []
-    for name, param in model.named_parameters():
-        if param.requires_grad:  # no weight decay on biases and norms (common practice)
-            (no_decay if param.ndim < 2 else decay).append(param)
-    groups = [{"params": decay, "weight_decay": cfg.schedule.weight_decay},
-              {"params": no_decay, "weight_decay": 0.0}]
-    # the fused kernel is several times faster on CPU and GPU, and deterministic
-    fused = next(model.parameters()).device.type in ("cpu", "cuda")
-    return torch.optim.AdamW(groups, lr=cfg.schedule.learning_rate, fused=fused)
+def _precision(accelerator: Accelerator) -> str:
+    """The resolved precision the run's Accelerator autocasts in, for the pseudo-perplexity passes."""
+    return "bf16" if accelerator.mixed_precision == "bf16" else "fp32"
 
 
 @dataclass
@@ -139,7 +141,7 @@ def _measure_base(cfg: PretrainJob, model, tokenizer, data: RunData, accelerator
     loss_module = MaskedOnlyMlm(model)
     start = {f"heldout_loss_{k}": e.loss(loss_module, accelerator.device, accelerator.autocast)
              for k, e in data.evals.items()}
-    start.update(measure_pppl(model, tokenizer, data.pppl_texts, cfg))
+    start.update(measure_pppl(model, tokenizer, data.pppl_texts, cfg, _precision(accelerator)))
     metrics.write(phase="start", step=0, **start)
     log.info("base model: %s", _fmt(start))
 
@@ -152,7 +154,7 @@ def _set_up_training(cfg: PretrainJob, model, data: RunData, accelerator: Accele
     log.info("adapter %s: %d of %d parameters train (%.2f%%)", cfg.adapter.kind, trainable, total,
              100 * trainable / total)
     loss_module = MaskedOnlyMlm(model).to(accelerator.device)
-    optimizer = _optimizer(model, cfg)
+    optimizer = build_adamw(model, cfg.schedule.learning_rate, cfg.schedule.weight_decay)
     s = cfg.schedule
     scheduler = get_scheduler("constant_with_warmup" if s.decay == "constant" else s.decay, optimizer,
                               num_warmup_steps=s.warmup_steps, num_training_steps=s.max_steps)
@@ -252,7 +254,7 @@ def _finish(cfg: PretrainJob, t: Training, data: RunData, tokenizer, head_report
     end = {f"heldout_loss_{k}": e.loss(t.loss_module, accelerator.device, accelerator.autocast)
            for k, e in data.evals.items()}
     final_model = t.adapter.export(accelerator.unwrap_model(t.loss_module).model)
-    end.update(measure_pppl(final_model, tokenizer, data.pppl_texts, cfg) if main else {})
+    end.update(measure_pppl(final_model, tokenizer, data.pppl_texts, cfg, _precision(accelerator)) if main else {})
     result = {"out_dir": str(out), "step": t.step, "completed": True, "tokens_seen": t.tokens_seen,
               "trainable_parameters": t.trainable, "total_parameters": t.total,
               "head_missing": head_report.missing, "start": _start_figures(metrics), "end": end}
@@ -268,7 +270,7 @@ def run(cfg: PretrainJob) -> dict:
     out = Path(cfg.out_dir)
     ckpt_dir = out / "checkpoints"
     resume_from = find_resume_point(cfg.resume, ckpt_dir)
-    accelerator = _accelerator(cfg)
+    accelerator, precision = _accelerator(cfg)
     main = accelerator.is_main_process
     general_dir = optional_str(cfg.general_dir)
     run_folder = RunFolder(out, "pretrain", cfg, [cfg.corpus_dir] + ([general_dir] if general_dir else []),
@@ -289,13 +291,13 @@ def run(cfg: PretrainJob) -> dict:
     _train(cfg, t, data, plan, accelerator, metrics, ckpt_dir)
     if t.step < cfg.schedule.max_steps:
         if main:
-            run_folder.finish("stopped", step=t.step)
+            run_folder.finish("stopped", step=t.step, precision=precision.record())
         return {"out_dir": str(out), "step": t.step, "completed": False,
                 "summary": [f"stopped at step {t.step} of {cfg.schedule.max_steps}; resume with resume=auto "
                             f"out_dir={out}"]}
     result = _finish(cfg, t, data, tokenizer, head_report, accelerator, metrics, out)
     if main:
-        run_folder.finish("completed", step=t.step)
+        run_folder.finish("completed", step=t.step, precision=precision.record())
     result["summary"] = _summary(result)
     return result
 

@@ -18,12 +18,13 @@ from transformers import PreTrainedTokenizerBase
 
 from adapt.config.common import PACKAGED_ENCODER
 from adapt.config.score import ScoreJob
-from adapt.training.encoder import HeadReport, load_mlm, load_tokenizer, resolve_encoder_path
+from adapt.training.encoder import HeadReport, load_mlm, load_tokenizer
 from adapt.common.errors import InputError
 from adapt.evaluation.pppl import DocScores, bootstrap_ci, pseudo_perplexity, score_documents
 from adapt.contracts.manifest import RunFolder
 from adapt.common.io import atomic_write_json
-from adapt.common.runtime import apply_threads, resolve_device
+from adapt.common.runtime import apply_threads, resolve_device, resolve_precision
+from adapt.contracts.model_folder import resolve_model_folder
 from adapt.contracts.prepared_corpus import read_texts
 
 log = logging.getLogger(__name__)
@@ -86,7 +87,9 @@ def run(cfg: ScoreJob) -> dict:
     apply_threads(cfg.runtime)
     texts_path = Path(cfg.texts)
     docs = read_texts(texts_path, cfg.split)  # raises InputError naming the path
-    encoder_path = resolve_encoder_path(cfg.encoder.name_or_path)
+    device = resolve_device(cfg.runtime)
+    precision = resolve_precision(cfg.runtime, device)
+    encoder_path = resolve_model_folder(cfg.encoder.name_or_path, "encoder.name_or_path")
     inputs = [texts_path] + ([] if cfg.encoder.name_or_path == PACKAGED_ENCODER else [encoder_path])
     folder = RunFolder(cfg.out_dir, "score", cfg, inputs=[p for p in inputs if Path(p).exists()], seed=cfg.seed)
     try:
@@ -102,26 +105,27 @@ def run(cfg: ScoreJob) -> dict:
         vocab_hash = vocab_sha256(tokenizer)
         log.warning("pseudo-perplexity depends on the tokenizer: compare it only with figures whose "
                     "tokenizer_vocab_sha256 is %s…", vocab_hash[:12])
-        scores = score_documents(model.to(resolve_device(cfg.runtime)), tokenizer, [d["text"] for d in chosen],
+        scores = score_documents(model.to(device), tokenizer, [d["text"] for d in chosen],
                                  max_seq_len=cfg.encoder.max_seq_len, batch_size=cfg.batch_size,
-                                 variant=cfg.variant, precision=cfg.runtime.precision,
+                                 variant=cfg.variant, precision=precision.precision,
                                  progress=cfg.runtime.progress, max_tokens=cfg.max_tokens)
         if scores.total_tokens == 0:
             raise InputError(f"{texts_path}: no scorable tokens in the chosen documents (only special or unknown "
                              "tokens); check the text field and the tokenizer, or raise max_docs")
-        result = _result(cfg, chosen, scores, report, tokenizer, vocab_hash)
+        result = _result(cfg, chosen, scores, report, tokenizer, vocab_hash, precision.precision)
         atomic_write_json(Path(cfg.out_dir) / "scores.json", result)
     except BaseException:
-        folder.finish(status="failed")
+        folder.finish(status="failed", precision=precision.record())
         raise
-    folder.finish(pseudo_perplexity=result["pseudo_perplexity"], total_tokens=result["total_tokens"])
+    folder.finish(pseudo_perplexity=result["pseudo_perplexity"], total_tokens=result["total_tokens"],
+                  precision=precision.record())
     result["out_dir"] = str(cfg.out_dir)
     result["summary"] = _summary(result)
     return result
 
 
 def _result(cfg: ScoreJob, chosen: list[dict], scores: DocScores, report: HeadReport,
-            tokenizer: PreTrainedTokenizerBase, vocab_hash: str) -> dict:
+            tokenizer: PreTrainedTokenizerBase, vocab_hash: str, precision: str) -> dict:
     cut_ids = [chosen[i]["id"] for i in np.flatnonzero(scores.cut)]
     if cut_ids:
         log.info("document %s was cut to keep within max_tokens=%d", cut_ids[0], cfg.max_tokens)
@@ -139,7 +143,7 @@ def _result(cfg: ScoreJob, chosen: list[dict], scores: DocScores, report: HeadRe
         "tokens_per_second": scores.total_tokens / max(scores.seconds, 1e-9),
         "max_seq_len": cfg.encoder.max_seq_len,
         "windows": scores.n_windows,
-        "precision": cfg.runtime.precision,
+        "precision": precision,
         "skipped_special_tokens": scores.skipped_special,
         "untrained_head": report.needs_warmup or cfg.encoder.random_init,
         "tokenizer": {"class": type(tokenizer).__name__, "vocab_size": len(tokenizer)},

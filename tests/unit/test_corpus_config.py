@@ -26,7 +26,7 @@ OVERRIDES = {
     "charset.language": ("es", "es"), "charset.extra_allowed": ("'αβ'", "αβ"),
     "charset.extra_denied": ("'~'", "~"), "charset.emoji": ("'🙂'", "🙂"),
     "charset.max_disallowed_share": ("0.05", 0.05), "charset.top_chars": ("3", 3),
-    "quality.gold_path": ("null", None), "quality.text_field": ("body", "body"),
+    "quality.gold_path": ("gold/g.jsonl", "gold/g.jsonl"), "quality.text_field": ("body", "body"),
     "quality.label_field": ("y", "y"), "quality.min_score": ("0.3", 0.3), "quality.cv_folds": ("3", 3),
     "quality.hash_features_log2": ("12", 12),
     "dedup.exact": ("false", False), "dedup.near": ("false", False), "dedup.ngram_words": ("5", 5),
@@ -36,7 +36,7 @@ OVERRIDES = {
     "contamination.task_dir": ("tasks/x", "tasks/x"), "contamination.text_field": ("body", "body"),
     "contamination.ngram_words": ("8", 8), "contamination.min_containment": ("0.7", 0.7),
     "contamination.action": ("report", "report"), "contamination.remove_splits": ("[test]", ["test"]),
-    "profile.general_path": ("null", None), "profile.encoder.name_or_path": ("some/model", "some/model"),
+    "profile.general_path": ("general/x", "general/x"), "profile.encoder.name_or_path": ("some/model", "some/model"),
     "profile.sample_docs": ("10", 10), "profile.top_unigrams": ("500", 500),
     "profile.examples_per_reason": ("1", 1), "profile.example_chars": ("40", 40),
 }
@@ -71,12 +71,14 @@ def test_every_option_composes_from_the_command_line_syntax():
         assert value == expected, key
 
 
-def test_defaults_resolve_sample_paths_and_presets_compose():
+def test_defaults_point_nowhere_and_presets_set_the_sample_paths():
     cfg = compose_job("prepare", BASE)
-    assert cfg.quality.gold_path.endswith("corpora_samples/quality_gold.jsonl")
-    assert cfg.profile.general_path.endswith("corpora_samples/general")
+    assert cfg.quality.gold_path is None and cfg.profile.general_path is None
+    assert cfg.contamination.task_dir is None
     legal = compose_job("prepare", BASE + ["preset=legal"])
-    assert legal.domain == "legal" and legal.contamination.task_dir.endswith("tasks/legal")
+    assert legal.domain == "legal" and legal.contamination.task_dir.endswith("corpora_samples/tasks/legal")
+    assert legal.quality.gold_path.endswith("corpora_samples/quality_gold.jsonl")
+    assert legal.profile.general_path.endswith("corpora_samples/general")
     clinical = compose_job("prepare", BASE + ["preset=clinical", "debug=tiny"])
     assert clinical.domain == "clinical" and clinical.privacy.mode == "redact"
     assert clinical.dedup.num_hashes == 32 and clinical.dedup.num_hashes % clinical.dedup.bands == 0

@@ -45,11 +45,11 @@ def test_task_files_are_read_per_split(tmp_path):
     (tmp_path / "notes.txt").write_text("ignored")
     texts = load_task_texts(tmp_path, "text")
     assert sorted({t.split for t in texts}) == ["dev", "test", "train"] and len(texts) == 9
-    with pytest.raises(InputError, match="dev.jsonl:1: no 'sentence' field.*contamination.text_field"):
+    with pytest.raises(InputError, match="train.jsonl:1: no field 'sentence'.*contamination.text_field"):
         load_task_texts(tmp_path, "sentence")
     empty = tmp_path / "empty"
     empty.mkdir()
     with pytest.raises(InputError, match="no train/dev/test"):
         load_task_texts(empty, "text")
-    with pytest.raises(InputError, match="not a folder"):
+    with pytest.raises(InputError, match="folder does not exist"):
         load_task_texts(tmp_path / "missing", "text")

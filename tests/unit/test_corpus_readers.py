@@ -10,7 +10,7 @@ import pyarrow.parquet as pq
 import pytest
 
 from adapt.config.prepare import ReadConfig
-from adapt.corpus.readers import ReadStats, read_documents, read_labelled_file
+from adapt.corpus.readers import ReadStats, read_documents
 from adapt.common.errors import InputError
 
 
@@ -78,9 +78,3 @@ def test_missing_input_path(tmp_path):
     with pytest.raises(InputError, match="does not exist"):
         _read([tmp_path / "nope"])
 
-
-def test_labelled_file_needs_every_field(tmp_path):
-    f = tmp_path / "gold.jsonl"
-    f.write_text(json.dumps({"text": "a", "label": "good"}) + "\n" + json.dumps({"text": "b"}) + "\n")
-    with pytest.raises(InputError, match="gold.jsonl:2: no 'label' field"):
-        read_labelled_file(f, ["text", "label"])

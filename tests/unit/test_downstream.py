@@ -66,7 +66,7 @@ def test_read_task_jsonl_and_csv(tmp_path):
 
 
 @pytest.mark.parametrize("damage, expected", [
-    ("missing_split", "no dev.jsonl or dev.csv"),
+    ("missing_split", "no dev file; add dev.jsonl, dev.csv or dev.tsv"),
     ("missing_field", "no field 'label'"),
     ("unseen_label", "do not occur in train.jsonl"),
     ("one_class", "at least 2 labels"),

@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """Sanity check that the labelled tasks are learnable but not saturated.
 
-    python corpora_samples/check_tasks.py
+    python scripts/samples/check_tasks.py [SAMPLES_DIR]
 
 Trains TF-IDF + logistic regression on each task's train split and prints
 accuracy on dev and test.  Needs scikit-learn; exits with status 1 if a test
@@ -18,7 +18,7 @@ from sklearn.feature_extraction.text import TfidfVectorizer
 from sklearn.linear_model import LogisticRegression
 from sklearn.pipeline import make_pipeline
 
-HERE = Path(__file__).resolve().parent
+SAMPLES_DIR = Path(__file__).resolve().parents[2] / "corpora_samples"
 LOW, HIGH = 0.60, 0.88
 
 
@@ -27,16 +27,17 @@ def load(path: Path) -> tuple[list[str], list[str]]:
     return [r["text"] for r in rows], [r["label"] for r in rows]
 
 
-def main() -> int:
+def main(argv: list[str]) -> int:
+    samples = Path(argv[0]) if argv else SAMPLES_DIR
     ok = True
     for task in ["legal", "clinical"]:
-        x_train, y_train = load(HERE / "tasks" / task / "train.jsonl")
+        x_train, y_train = load(samples / "tasks" / task / "train.jsonl")
         clf = make_pipeline(TfidfVectorizer(sublinear_tf=True, ngram_range=(1, 2)),
                             LogisticRegression(max_iter=2000, C=10.0))
         clf.fit(x_train, y_train)
         scores = {}
         for split in ["dev", "test"]:
-            x, y = load(HERE / "tasks" / task / f"{split}.jsonl")
+            x, y = load(samples / "tasks" / task / f"{split}.jsonl")
             scores[split] = clf.score(x, y)
         print(f"{task:9s} train {len(x_train)}  dev acc {scores['dev']:.3f}  test acc {scores['test']:.3f}")
         ok &= LOW <= scores["test"] <= HIGH
@@ -44,4 +45,4 @@ def main() -> int:
 
 
 if __name__ == "__main__":
-    sys.exit(main())
+    sys.exit(main(sys.argv[1:]))

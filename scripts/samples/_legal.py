@@ -4,15 +4,23 @@ from __future__ import annotations
 
 import random
 
+import _data
 import _style
 import _world as W
 from _grammar import Grammar, redraw, tidy, word_count
-from _legal_phrases import (  # noqa: F401
+
+# Phrase pools: templates in the syntax of _grammar ([a|b] alternatives, [?a] optional parts, {slot}
+# values), in data/legal_phrases.json.  Every name, place and statute is invented.
+(
     AREAS, FACTS, REASONING, JUDGMENT_INTROS, CONCLUSIONS, APPEAL, TRIBUNAL, NOTICE_TYPES,
     NOTICE_EXTRA, CLAUSES, CLAUSE_INTROS, MEMO_OPEN, MEMO_BODY, MEMO_CLOSE, SI_INTROS,
     SI_PREAMBLE, SI_FIRST, SI_INTERP, SI_RULES, SI_COMMON, SI_NOTES, SI_TITLES, LETTER_OPEN,
     LETTER_BODY, LETTER_CLOSE, DOC_THINGS, DEPTS, REPAIR_ITEMS,
-)
+) = _data.tables("legal_phrases", """
+    AREAS FACTS REASONING JUDGMENT_INTROS CONCLUSIONS APPEAL TRIBUNAL NOTICE_TYPES NOTICE_EXTRA CLAUSES
+    CLAUSE_INTROS MEMO_OPEN MEMO_BODY MEMO_CLOSE SI_INTROS SI_PREAMBLE SI_FIRST SI_INTERP SI_RULES
+    SI_COMMON SI_NOTES SI_TITLES LETTER_OPEN LETTER_BODY LETTER_CLOSE DOC_THINGS DEPTS REPAIR_ITEMS
+""")
 
 
 def _judge(rng: random.Random) -> str:

@@ -13,152 +13,21 @@ import datetime as _dt
 import random
 import unicodedata
 
-COUNTRY = "Republic of Quellmar"
-COUNTRY_SHORT = "Quellmar"
-CAPITAL = "Haverrin"
-CURRENCY = "orins"
+import _data
 
-TOWNS = [
-    "Haverrin", "Ostrelby", "Vennickford", "Brasselmoor", "Tillenhyde",
-    "Saldermere", "Pennagrave", "Orlindhal", "Quistowe", "Hollerdyke",
-    "Lorrimouth", "Carrowvane", "Ambreth", "Corlisse", "Tavenmoor", "Yselby",
-    "Grellin Cross", "Undermast", "Kesterholm", "Marrowgate", "Feldenby",
-    "Varlow Bridge", "Dunmerrin", "Eskerholt", "Pell Marsh", "Odrannick",
-]
-
-FIRST_NAMES = [
-    "Adela", "Aurel", "Bastien", "Brenna", "Calder", "Corin", "Dagny",
-    "Delphine", "Edric", "Elowen", "Fenna", "Florian", "Garreth", "Greta",
-    "Halvard", "Hester", "Ilse", "Isidor", "Jonas", "Juno", "Kasimir",
-    "Kirsi", "Leander", "Liesel", "Marek", "Maren", "Nils", "Noor", "Oskar",
-    "Odile", "Perrin", "Petra", "Quentin", "Rhosyn", "Rowan", "Saskia",
-    "Severin", "Solveig", "Tamsin", "Teodor", "Ulla", "Ursel", "Valentin",
-    "Vesna", "Wendel", "Wilma", "Xaver", "Yara", "Ysolde", "Zofia", "Anselm",
-    "Bettina", "Cosmo", "Dorit", "Emrys", "Fabienne", "Gideon", "Hanne",
-    "Ivo", "Jessamy", "Konrad", "Lotte", "Matthias", "Nerys", "Orla",
-    "Pavel", "Ragna", "Silas", "Thea", "Ulric", "Verity", "Wolfram", "Agnes",
-    "Bram", "Clemence", "Desmond", "Ebba", "Frode", "Ginevra", "Hugo",
-]
-FEMALE = {
-    "Adela", "Brenna", "Dagny", "Delphine", "Elowen", "Fenna", "Greta",
-    "Hester", "Ilse", "Juno", "Kirsi", "Liesel", "Maren", "Noor", "Odile",
-    "Petra", "Rhosyn", "Saskia", "Solveig", "Tamsin", "Ulla", "Ursel",
-    "Vesna", "Wilma", "Yara", "Ysolde", "Zofia", "Bettina", "Dorit",
-    "Fabienne", "Hanne", "Jessamy", "Lotte", "Nerys", "Orla", "Ragna",
-    "Thea", "Verity", "Agnes", "Clemence", "Ebba", "Ginevra",
-}
-ACCENTED_FIRST = [
-    "Aurélie", "Inés", "Ramón", "Begoña", "Noémie", "Zoë", "Léonie",
-    "Joaquín", "Héloïse", "Iñaki", "Mireña", "Estéban", "Agnès", "Renée",
-]
-SURNAMES = [
-    "Vantrell", "Oskeby", "Quillane", "Marsk", "Bexhollow", "Fenmarrow",
-    "Corvane", "Tamsley", "Orrin", "Vake", "Abernoy", "Pellicott",
-    "Dunwarrow", "Fesk", "Harrowmere", "Kettlewyn", "Lorimond", "Maddervale",
-    "Nesterby", "Pollisk", "Quarrendon", "Rathmoyle", "Sallowby", "Tressider",
-    "Umberlane", "Varrick", "Wendlecott", "Yarrowby", "Zellick", "Ambersley",
-    "Brightcombe", "Carrodine", "Dallimore", "Evenwood", "Farrowdale",
-    "Gellibrand", "Haskery", "Iverstone", "Kellaway", "Lusk", "Morrent",
-    "Nollins", "Oddingley", "Pemberth", "Quist", "Rennard", "Stallbrook",
-    "Thackery", "Ullathorne", "Vessey", "Wrathall", "Yelland", "Carvosso",
-    "Druce", "Gorvett", "Hollin", "Inskip", "Jory", "Kitto", "Lanyon",
-    "Menhenick", "Nanscawen", "Trevessa", "Polglase", "Skewes", "Tregunna",
-    "Ardency", "Belcastle", "Crowmarsh", "Delabole", "Ettrin", "Falvey",
-]
-ACCENTED_SURNAMES = [
-    "Oduválle", "Ibárrez", "Montaño", "Lérida-Vake", "Castañer", "Dufrêne",
-    "Béranger", "Nuñovar", "Gállego", "Peñarrin",
-]
-
-LAW_FIRMS = [
-    "Tamsley Orrin & Vake LLP", "Quillane Dorrance Partners",
-    "Bexhollow & Marsk", "Oskeby Legal Chambers", "Fenmarrow Law",
-    "Corvane Hatch Solicitors", "Pellicott Abernoy LLP",
-    "Wendlecott & Lusk", "Rathmoyle Stallbrook", "Harrowmere Legal",
-]
-INDUSTRIES = [
-    "Freight", "Glassworks", "Dairy Cooperative", "Civil Works", "Print & Pack",
-    "Logistics", "Software Guild", "Cold Storage", "Hotels Group", "Textiles",
-    "Shipwrights", "Solar Installations", "Bakeries", "Care Homes",
-    "Fisheries", "Timber Yards", "Brewing Company", "Precision Castings",
-    "Couriers", "Property Holdings", "Lettings", "Engineering",
-    "Pharmacy Supplies", "Marine Services", "Haulage",
-]
-COMPANY_SUFFIX = ["Ltd", "plc", "Ltd", "& Co.", "Ltd", "Holdings", "Ltd"]
-STREET_NAMES = [
-    "Larchmount", "Copperleaf", "Tanner's", "Mill", "Orchard", "Weaver",
-    "Kiln", "Chandler", "Ferrier", "Bellhouse", "Saltings", "Wicker",
-    "Foundry", "Rookery", "Quarry", "Marram", "Cinder", "Hop Garden",
-    "Lantern", "Sexton", "Tollgate", "Drover's", "Ropewalk", "Glebe",
-]
-STREET_KINDS = ["Road", "Street", "Lane", "Terrace", "Walk", "Close", "Row",
-                "Avenue", "Yard", "Court"]
-
-MONTHS = ["January", "February", "March", "April", "May", "June", "July",
-          "August", "September", "October", "November", "December"]
-
-# -- statutes ----------------------------------------------------------------
-ACTS = {
-    "tenancy": ["Dwelling Leases Act 2011",
-                "Tenancy Deposits (Safekeeping) Regulations 2019",
-                "Housing Standards (Repair) Ordinance 2007"],
-    "employment": ["Workplace Relations and Wages Ordinance 2004",
-                   "Dismissal Procedures (Fair Hearing) Regulations 2015",
-                   "Working Time and Leave Act 2009"],
-    "contract": ["Civil Obligations Code 1987",
-                 "Trade in Goods and Services Code 2002",
-                 "Late Settlement of Commercial Debts Act 2013"],
-    "family": ["Household and Children Proceedings Act 2016",
-               "Child Support Assessment Ordinance 2009",
-               "Marital Property Settlement Act 1998"],
-    "general": ["Claims Prescription Act 1994", "Rules of Civil Hearing 2008",
-                "Courts and Registries Act 2001",
-                "Evidence (Documentary Records) Act 2012"],
-}
-
-COURT_CODES = {
-    "QHC": "High Court of Quellmar",
-    "QCA": "Court of Appeal of Quellmar",
-    "QSB": "Supreme Bench of Quellmar",
-    "QET": "Employment Tribunal of Quellmar",
-    "QFC": "Family Court of Quellmar",
-    "QHL": "Housing and Leases Tribunal",
-}
-
-# -- clinical world ---------------------------------------------------------------
-HOSPITAL = "Orlindhal General Infirmary"
-HOSPITALS = [HOSPITAL, "Saldermere District Hospital",
-             "Haverrin Teaching Hospital", "Tavenmoor Community Hospital"]
-WARDS = ["Kestrel Ward", "Larch Ward", "Heron Ward", "Ward 7 (Acute Medical Unit)",
-         "Ward 12 (Cardiology)", "Ward 4 (Respiratory)", "Wren Ward",
-         "Ward 9 (Stroke Unit)", "Alder Ward", "Ward 3 (Gastroenterology)",
-         "Teasel Ward", "the Clinical Decisions Unit"]
-GP_PRACTICES = ["Tavenmoor Health Centre", "Quistowe Road Surgery",
-                "Ostrelby Medical Practice", "Kiln Lane Surgery",
-                "Yselby Family Practice", "Marrowgate Health Partnership",
-                "Undermast Village Surgery", "Corlisse Group Practice"]
-
-DRUGS = {
-    "cardiology": ["veltaprolol", "tessapril", "corimazide", "dravonistat",
-                   "quelmadipine", "anthrogrel", "lorvaxaban", "nitrovanel spray"],
-    "respiratory": ["Quorvent inhaler", "pulmoxan", "bresotide inhaler",
-                    "haldexin", "olvicillin", "trelvaxin", "venabreth nebules"],
-    "neurology": ["neurotrel", "zendapine", "lamocetrine", "fexotrine",
-                  "seprafen", "dormaleen", "valmorazine"],
-    "gastroenterology": ["mireprazole", "gastrivane", "colomesal", "lactavane",
-                         "antemezine", "hepavorin", "sucralvane"],
-    "general": ["seprafen", "ambravir", "lemacort", "dolvantin", "olvicillin",
-                "calvexa", "tramolene", "insavar"],
-}
-DRUG_CLASSES = {
-    "cardiology": ["a beta blocker", "an ACE inhibitor", "a loop diuretic",
-                   "a statin", "an anticoagulant", "an antiplatelet agent"],
-    "respiratory": ["an inhaled corticosteroid", "a short-acting bronchodilator",
-                    "an oral steroid course", "a macrolide antibiotic"],
-    "neurology": ["an antiepileptic", "a triptan", "a dopamine agonist"],
-    "gastroenterology": ["a proton-pump inhibitor", "an antiemetic",
-                         "a laxative", "an aminosalicylate"],
-}
+# Names of the invented world (places, people, firms, statutes, courts, hospitals, drugs) in
+# data/world.json; FEMALE is the set of first names that take Ms and she.
+(
+    COUNTRY, COUNTRY_SHORT, CAPITAL, CURRENCY, TOWNS, FIRST_NAMES, FEMALE, ACCENTED_FIRST, SURNAMES,
+    ACCENTED_SURNAMES, LAW_FIRMS, INDUSTRIES, COMPANY_SUFFIX, STREET_NAMES, STREET_KINDS, MONTHS, ACTS,
+    COURT_CODES, HOSPITALS, WARDS, GP_PRACTICES, DRUGS, DRUG_CLASSES, EMAIL_DOMAINS,
+) = _data.tables("world", """
+    COUNTRY COUNTRY_SHORT CAPITAL CURRENCY TOWNS FIRST_NAMES FEMALE ACCENTED_FIRST SURNAMES
+    ACCENTED_SURNAMES LAW_FIRMS INDUSTRIES COMPANY_SUFFIX STREET_NAMES STREET_KINDS MONTHS ACTS
+    COURT_CODES HOSPITALS WARDS GP_PRACTICES DRUGS DRUG_CLASSES EMAIL_DOMAINS
+""")
+FEMALE = set(FEMALE)
+HOSPITAL = HOSPITALS[0]
 
 
 # -- helpers ---------------------------------------------------------------------
@@ -276,9 +145,6 @@ def hospital_number(rng: random.Random) -> str:
 
 # -- synthetic personal identifiers ------------------------------------------
 DNI_LETTERS = "TRWAGMYFPDXBNJZSQVHLCKE"
-EMAIL_DOMAINS = ["quillane-legal.example", "orlindhal-infirmary.test",
-                 "mailbox.example", "haverrin-post.test", "tamsleyorrin.example",
-                 "quistowe-net.test", "valemail.example", "corlisse-gp.test"]
 
 
 def dni(rng: random.Random) -> str:

@@ -9,96 +9,13 @@ from __future__ import annotations
 import random
 import re
 
+import _data
 import _world as W
 
-# -- boilerplate footers shared by many documents ---------------------------------
-FOOTERS = {
-    "legal": [
-        "CONFIDENTIALITY NOTICE: This message and any attachments are confidential and may be legally "
-        "privileged. If you have received it in error, please notify Tamsley Orrin & Vake LLP immediately "
-        "and delete it. Tamsley Orrin & Vake LLP is regulated by the Quellmar Legal Practice Board.",
-        "Quillane Dorrance Partners | Registered in the Republic of Quellmar | This communication does not "
-        "constitute legal advice unless expressly stated.",
-    ],
-    "clinical": [
-        "This document was produced by the Orlindhal General Infirmary electronic patient record. It contains "
-        "confidential patient information; if you are not the intended recipient, please contact the Records "
-        "Office and destroy this copy.",
-        "PRINTED COPY - UNCONTROLLED WHEN PRINTED - Saldermere District Hospital Clinical Systems",
-    ],
-}
-
-# -- other scripts (invented content in real languages) ------------------------------
-FOREIGN = {
-    ("legal", "cyrillic"): [
-        "Высокий суд Квеллмара рассмотрел жалобу арендатора по делу № {n}.",
-        "Истец утверждает, что арендодатель не вернул залог в размере {amt} оринов.",
-        "Суд постановил отложить слушание до {d} числа следующего месяца.",
-        "Представитель ответчика не явился в судебное заседание.",
-        "Договор аренды был заключён на срок {k} года.",
-        "Работник был уволен без предварительного уведомления.",
-        "Стороны согласились урегулировать спор путём медиации.",
-        "Апелляционная жалоба отклонена, расходы возлагаются на заявителя.",
-        "Поставщик нарушил сроки поставки по договору от {d} марта.",
-    ],
-    ("legal", "greek"): [
-        "Το Ανώτατο Δικαστήριο του Κβέλμαρ εξέτασε την έφεση του ενοικιαστή.",
-        "Ο ενάγων ισχυρίζεται ότι ο εργοδότης δεν κατέβαλε τους μισθούς {k} μηνών.",
-        "Η ακρόαση αναβλήθηκε για τις {d} του μήνα.",
-        "Οι διάδικοι συμφώνησαν σε διαμεσολάβηση.",
-        "Το συμβόλαιο προμήθειας υπογράφηκε πριν από {k} χρόνια.",
-        "Η αίτηση για την επιμέλεια των παιδιών απορρίφθηκε.",
-        "Ο εναγόμενος οφείλει να καταβάλει {amt} ορίνια.",
-    ],
-    ("legal", "cjk"): [
-        "奎尔马尔高等法院审理了租户的上诉。",
-        "原告称房东未退还押金{amt}奥林。",
-        "听证会推迟至下月{d}日举行。",
-        "双方同意进行调解。",
-        "雇员在未经通知的情况下被解雇。",
-        "供应商未按合同约定的日期交货。",
-        "法院驳回了上诉，费用由上诉人承担。",
-    ],
-    ("clinical", "cyrillic"): [
-        "Пациент поступил в приёмное отделение с жалобами на боль в груди.",
-        "Назначено обследование: ЭКГ, анализ крови, рентген грудной клетки.",
-        "Состояние пациента стабильное, температура {t}.",
-        "Рекомендовано наблюдение у кардиолога через {k} недели.",
-        "Больная жалуется на головную боль и тошноту в течение {k} дней.",
-        "Выписан домой в удовлетворительном состоянии.",
-        "Аллергия на лекарственные препараты не выявлена.",
-    ],
-    ("clinical", "greek"): [
-        "Ο ασθενής προσήλθε στα επείγοντα με πόνο στο στήθος.",
-        "Η ασθενής αναφέρει πονοκέφαλο και ναυτία εδώ και {k} ημέρες.",
-        "Συνιστάται επανεξέταση σε δύο εβδομάδες.",
-        "Η θερμοκρασία ήταν {t} βαθμοί.",
-        "Έγινε ακτινογραφία θώρακος χωρίς παθολογικά ευρήματα.",
-        "Ο ασθενής εξήλθε σε καλή γενική κατάσταση.",
-    ],
-    ("clinical", "cjk"): [
-        "患者因胸痛入急诊科。",
-        "患者诉头痛、恶心{k}天。",
-        "建议两周后复查。",
-        "体温{t}度，血压正常。",
-        "已安排心电图和胸部X光检查。",
-        "患者病情稳定，准予出院。",
-        "无已知药物过敏史。",
-    ],
-}
-
-SPAM_WORDS = {
-    "legal": ["tenancy lawyer", "cheap lawyer", "eviction", "best solicitor", "divorce fast",
-              "no win no fee", "Haverrin lawyer", "free legal advice", "compensation claim",
-              "unfair dismissal payout", "contract lawyer", "custody lawyer", "call now"],
-    "clinical": ["cheap meds", "buy veltaprolol online", "no prescription", "best clinic",
-                 "weight loss fast", "Orlindhal doctor", "free consultation", "miracle cure",
-                 "heart health", "detox", "order now", "discount pharmacy", "private scan"],
-}
-
-NAV = ["Home", "About us", "Services", "Our team", "News", "Contact", "Login", "Register",
-       "Privacy policy", "Terms of use", "Cookie settings", "Careers", "FAQ", "Search",
-       "Sitemap", "Accessibility", "Book online", "Locations", "Back to top"]
+# In data/noise.json: FOOTERS, the boilerplate lines shared by many documents; FOREIGN[domain][script],
+# sentences in other scripts (invented content in real languages); SPAM_WORDS; NAV, the menu items of
+# HTML pages; SWAPS, the word swaps of near duplicates.
+FOOTERS, FOREIGN, SPAM_WORDS, NAV, SWAPS = _data.tables("noise", "FOOTERS FOREIGN SPAM_WORDS NAV SWAPS")
 
 
 def _fill(rng: random.Random, template: str) -> str:
@@ -108,7 +25,7 @@ def _fill(rng: random.Random, template: str) -> str:
 
 
 def foreign_doc(rng: random.Random, domain: str, script: str) -> str:
-    pool = FOREIGN[(domain, script)]
+    pool = FOREIGN[domain][script]
     sents = [_fill(rng, s) for s in rng.sample(pool, rng.randint(4, len(pool)))]
     sep = "" if script == "cjk" else " "
     body = sep.join(sents)
@@ -195,14 +112,6 @@ def keyword_spam(rng: random.Random, domain: str) -> str:
 
 
 # -- near duplicates ----------------------------------------------------------------
-SWAPS = {
-    "the": "this", "a": "one", "was": "had been", "is": "remains", "and": "and also",
-    "on": "upon", "said": "stated", "shows": "showed", "about": "around", "also": "further",
-    "tenant": "occupier", "landlord": "lessor", "claimant": "applicant", "patient": "pt",
-    "reviewed": "seen", "advised": "told", "within": "inside", "before": "prior to",
-}
-
-
 def near_duplicate(rng: random.Random, text: str, extra_sentence: str) -> tuple[str, str]:
     """Return (new text, description).  Changes 2-5% of words or adds a sentence."""
     if rng.random() < 0.35:

@@ -4,15 +4,24 @@ from __future__ import annotations
 
 import random
 
+import _data
 import _style
 import _world as W
 from _grammar import Grammar, redraw, tidy, word_count
-from _clinical_phrases import (  # noqa: F401
+
+# Phrase pools: templates in the syntax of _grammar ([a|b] alternatives, [?a] optional parts, {slot}
+# values), in data/clinical_phrases.json.  Every name, place and statute is invented.
+(
     SPECIALTIES, SPEC_WEIGHTS, SPEC_NAME, PC, HISTORY, EXAM, INVEST, PLAN, DIAGNOSES, NURSING,
     NURSING_SPEC, RADIOLOGY, TECHNIQUE, TECH_XRAY, INCIDENTAL, REFERRAL_OPEN, REFERRAL_FIRST,
     REFERRAL_LAST, REFERRAL_BODY, REFERRAL_CLOSE, CLINIC_OPEN, CLINIC_FIRST, CLINIC_LAST,
     CLINIC_BODY, CLINIC_CLOSE, PROCEDURES, MEDREV_INTRO, MEDREV_BODY, TRIAGE_CATS, SPEC_WARDS,
-)
+) = _data.tables("clinical_phrases", """
+    SPECIALTIES SPEC_WEIGHTS SPEC_NAME PC HISTORY EXAM INVEST PLAN DIAGNOSES NURSING NURSING_SPEC
+    RADIOLOGY TECHNIQUE TECH_XRAY INCIDENTAL REFERRAL_OPEN REFERRAL_FIRST REFERRAL_LAST REFERRAL_BODY
+    REFERRAL_CLOSE CLINIC_OPEN CLINIC_FIRST CLINIC_LAST CLINIC_BODY CLINIC_CLOSE PROCEDURES
+    MEDREV_INTRO MEDREV_BODY TRIAGE_CATS SPEC_WARDS
+""")
 
 
 def _ward(rng: random.Random, spec: str) -> str:

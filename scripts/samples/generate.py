@@ -1,14 +1,16 @@
 #!/usr/bin/env python3
-"""Rebuild the invented sample data in this folder.
+"""Rebuild the invented sample data in corpora_samples/ (or in another folder).
 
-    python corpora_samples/generate.py
+    python scripts/samples/generate.py              # rewrites corpora_samples/
+    python scripts/samples/generate.py --out DIR    # writes the same files into DIR
 
 Everything is produced from one fixed seed with ``random.Random`` instances
 (never the module-level random functions), so every run writes byte-identical
 files.  The data describe an invented jurisdiction (the Republic of Quellmar)
-and an invented hospital (Orlindhal General Infirmary); see README.md.
+and an invented hospital (Orlindhal General Infirmary); see corpora_samples/README.md.
+The phrase tables and name lists are JSON files under data/ (see _data.py).
 
-Outputs (relative to this folder):
+Outputs (relative to the output folder):
     legal/, clinical/        unlabelled in-domain corpora (.txt, .jsonl, .jsonl.gz,
                              cp1252 .txt) with planted defects and synthetic PII
     general/general.jsonl    general-domain text
@@ -19,6 +21,7 @@ Outputs (relative to this folder):
 
 from __future__ import annotations
 
+import argparse
 import gzip
 import json
 import random
@@ -34,6 +37,7 @@ sys.dont_write_bytecode = True
 HERE = Path(__file__).resolve().parent
 if str(HERE) not in sys.path:
     sys.path.insert(0, str(HERE))
+SAMPLES_DIR = HERE.parents[1] / "corpora_samples"
 
 import _clinical  # noqa: E402
 import _general  # noqa: E402
@@ -246,12 +250,12 @@ def _jsonl(rows: list[dict]) -> bytes:
     return "".join(json.dumps(r, ensure_ascii=False) + "\n" for r in rows).encode("utf-8")
 
 
-def write_corpus(docs: list[Doc]) -> None:
+def write_corpus(out: Path, docs: list[Doc]) -> None:
     files: dict[str, list[Doc]] = {}
     for d in docs:
         files.setdefault(d.location, []).append(d)
     for loc, group in sorted(files.items()):
-        path = HERE / loc
+        path = out / loc
         path.parent.mkdir(parents=True, exist_ok=True)
         if loc.endswith(".txt"):
             assert len(group) == 1
@@ -264,18 +268,23 @@ def write_corpus(docs: list[Doc]) -> None:
         path.write_bytes(data)
 
 
-def write_rows(rel: str, rows: list[dict]) -> None:
-    path = HERE / rel
+def write_rows(out: Path, rel: str, rows: list[dict]) -> None:
+    path = out / rel
     path.parent.mkdir(parents=True, exist_ok=True)
     path.write_bytes(_jsonl(rows))
 
 
-def clear_outputs() -> None:
-    for sub in ["legal", "clinical", "general", "tasks"]:
-        if (HERE / sub).exists():
-            shutil.rmtree(HERE / sub)
-    for name in ["quality_gold.jsonl", "PLANTED.md", "PLANTED.json"]:
-        (HERE / name).unlink(missing_ok=True)
+OUTPUT_DIRS = ["legal", "clinical", "general", "tasks"]
+OUTPUT_FILES = ["quality_gold.jsonl", "PLANTED.md", "PLANTED.json"]
+
+
+def clear_outputs(out: Path) -> None:
+    """Remove what an earlier run wrote (and nothing else: the folder also holds README.md)."""
+    for sub in OUTPUT_DIRS:
+        if (out / sub).exists():
+            shutil.rmtree(out / sub)
+    for name in OUTPUT_FILES:
+        (out / name).unlink(missing_ok=True)
 
 
 # ---------------------------------------------------------------------------
@@ -435,7 +444,7 @@ def verify(corpora: dict[str, list[Doc]], tasks: dict) -> list[str]:
     return problems
 
 
-def report(corpora: dict[str, list[Doc]], general: list[Doc], tasks: dict, started: float) -> None:
+def report(out: Path, corpora: dict[str, list[Doc]], general: list[Doc], tasks: dict, started: float) -> None:
     print(f"{'corpus':10s} {'docs':>6s} {'words':>8s} {'sentences':>9s} {'distinct':>8s} {'5-gram':>7s}")
     for name, docs in list(corpora.items()) + [("general", general)]:
         texts = [d.text for d in docs]
@@ -450,38 +459,43 @@ def report(corpora: dict[str, list[Doc]], general: list[Doc], tasks: dict, start
         lens = [len(r["text"].split()) for rows in splits.values() for r in rows]
         print(f"task {name}: {desc}; words {min(lens)}-{max(lens)}; labels "
               f"{dict(sorted(Counter(r['label'] for r in splits['train']).items()))}")
-    total = sum(p.stat().st_size for p in HERE.rglob("*") if p.is_file()
-                and p.suffix != ".py" and "__pycache__" not in p.parts)
-    print(f"output size {total / 1e6:.2f} MB; {time.time() - started:.1f} s")
+    written = [p for sub in OUTPUT_DIRS for p in (out / sub).rglob("*") if p.is_file()]
+    total = sum(p.stat().st_size for p in written + [out / name for name in OUTPUT_FILES])
+    print(f"output size {total / 1e6:.2f} MB in {out}; {time.time() - started:.1f} s")
 
 
 # ---------------------------------------------------------------------------
-def main() -> int:
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description="Rebuild the invented sample data byte for byte.")
+    parser.add_argument("--out", type=Path, default=SAMPLES_DIR,
+                        help=f"output folder (default {SAMPLES_DIR}); earlier outputs in it are replaced")
+    out = parser.parse_args(argv).out.resolve()
+    out.mkdir(parents=True, exist_ok=True)
     started = time.time()
     root = random.Random(SEED)
     seeds = {k: root.randrange(2**32) for k in ["legal", "clinical", "general", "tasks", "quality"]}
-    clear_outputs()
+    clear_outputs(out)
     corpora = {d: build_corpus(d, random.Random(seeds[d])) for d in ["legal", "clinical"]}
     general = build_general(random.Random(seeds["general"]))
     tasks = _tasks.make_tasks(random.Random(seeds["tasks"]))
     quality, qcounts = _quality.make_quality(random.Random(seeds["quality"]))
 
     for docs in corpora.values():
-        write_corpus(docs)
-    write_corpus(general)
+        write_corpus(out, docs)
+    write_corpus(out, general)
     for name, splits in tasks.items():
         for split, rows in splits.items():
-            write_rows(f"tasks/{name}/{split}.jsonl", rows)
-    write_rows("quality_gold.jsonl", quality)
+            write_rows(out, f"tasks/{name}/{split}.jsonl", rows)
+    write_rows(out, "quality_gold.jsonl", quality)
 
     man = planted_manifest(corpora, tasks, qcounts)
-    (HERE / "PLANTED.json").write_bytes(_compact_json(man).encode("utf-8"))
-    (HERE / "PLANTED.md").write_bytes(planted_markdown(man).encode("utf-8"))
+    (out / "PLANTED.json").write_bytes(_compact_json(man).encode("utf-8"))
+    (out / "PLANTED.md").write_bytes(planted_markdown(man).encode("utf-8"))
 
     problems = verify(corpora, tasks)
     for p in problems:
         print("WARNING:", p)
-    report(corpora, general, tasks, started)
+    report(out, corpora, general, tasks, started)
     return 1 if problems else 0
 
 

@@ -1,0 +1,78 @@
+"""Paired comparison of two checkpoints' pseudo-perplexity on the same documents.
+
+Both ``scores.json`` files keep per-document pseudo-log-likelihoods (``per_document``: id, tokens, pll). On the
+documents both scored with the same token count, the ratio adapted / base of the micro-averaged
+pseudo-perplexity exp(-ΣPLL / ΣT) (Salazar et al. 2020) is resampled over documents with replacement (percentile
+bootstrap; documents, not tokens, are the independent units). The ratio is only meaningful when both used the
+same tokenizer, the same variant and the same window length; otherwise the pair is refused with the reason.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+_CHUNK = 256  # resamples drawn at a time, so memory stays at _CHUNK × documents
+
+
+def comparable(a: dict, b: dict) -> str:
+    """Empty when the two score results may be compared; else why not."""
+    for key, what in (("tokenizer_vocab_sha256", "tokenizers"), ("variant", "scoring variants"),
+                      ("max_seq_len", "window lengths")):
+        if a.get(key) is None or b.get(key) is None:
+            return f"{key} is missing from one of the scores.json files"
+        if a.get(key) != b.get(key):
+            return f"different {what} ({key} {a.get(key)!s:.12} vs {b.get(key)!s:.12})"
+    return ""
+
+
+def matched_documents(a: dict, b: dict) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(pll_a, pll_b, tokens) of the documents both scored with the same number of tokens, in a's order."""
+    by_id = {}
+    for d in b.get("per_document") or []:
+        if isinstance(d, dict) and "id" in d:
+            by_id[str(d["id"])] = d
+    pll_a, pll_b, tokens = [], [], []
+    for d in a.get("per_document") or []:
+        other = by_id.get(str(d.get("id"))) if isinstance(d, dict) else None
+        if other is None or d.get("tokens") != other.get("tokens") or not d.get("tokens"):
+            continue
+        pll_a.append(float(d["pll"]))
+        pll_b.append(float(other["pll"]))
+        tokens.append(int(d["tokens"]))
+    return np.asarray(pll_a), np.asarray(pll_b), np.asarray(tokens, dtype=np.int64)
+
+
+def pppl_ratio(pll_a: np.ndarray, pll_b: np.ndarray, tokens: np.ndarray) -> float:
+    """exp(-ΣPLL_a/ΣT) / exp(-ΣPLL_b/ΣT): below 1 means checkpoint a is better on these documents."""
+    total = tokens.sum()
+    return math.exp(-(pll_a.sum() - pll_b.sum()) / total)
+
+
+def paired_ratio(a: dict, b: dict, n_resamples: int, level: float, seed: int) -> dict[str, Any]:
+    """Ratio of a's to b's pseudo-perplexity on their common documents, with a paired percentile bootstrap CI."""
+    why = comparable(a, b)
+    if why:
+        return {"comparable": False, "reason": why}
+    pll_a, pll_b, tokens = matched_documents(a, b)
+    n = len(tokens)
+    if n == 0:
+        return {"comparable": False, "reason": "the two runs scored no document in common (same id and tokens)"}
+    out: dict[str, Any] = {"comparable": True, "ratio": pppl_ratio(pll_a, pll_b, tokens), "n_docs": n,
+                           "n_tokens": int(tokens.sum()), "level": level, "n_resamples": n_resamples,
+                           "ci_low": None, "ci_high": None, "share_ratio_below_1": None}
+    if n_resamples == 0:
+        return out
+    rng = np.random.default_rng(seed)
+    diff = pll_a - pll_b  # (n,) per-document PLL gain of a over b, in nats
+    ratios = np.empty(n_resamples)
+    for start in range(0, n_resamples, _CHUNK):
+        size = min(_CHUNK, n_resamples - start)
+        idx = rng.integers(0, n, size=(size, n))  # (R, n) documents drawn with replacement
+        ratios[start:start + size] = np.exp(-diff[idx].sum(axis=1) / tokens[idx].sum(axis=1))
+    alpha = (1.0 - level) / 2.0
+    out["ci_low"], out["ci_high"] = (float(v) for v in np.quantile(ratios, [alpha, 1.0 - alpha]))
+    out["share_ratio_below_1"] = float(np.mean(ratios < 1.0))
+    return out

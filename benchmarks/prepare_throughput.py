@@ -162,10 +162,10 @@ def sweep(docs: list[str], planted: list[tuple[int, int]], origin: np.ndarray) -
 
 
 def _prepare_child(folder: str, num_proc: int, queue: mp.Queue) -> None:
-    from adapt.config.prepare import PrepareJob
+    from adapt.config.prepare import PrepareJob, PrepareRuntimeConfig
     from adapt.stages.prepare import run
 
-    cfg = PrepareJob(inputs=[f"{folder}/in"], out_dir=f"{folder}/out", progress=False, num_proc=num_proc)
+    cfg = PrepareJob(inputs=[f"{folder}/in"], out_dir=f"{folder}/out", runtime=PrepareRuntimeConfig(progress=False, num_proc=num_proc))
     cfg.quality.gold_path = None  # heuristic score: no gold set is needed for synthetic text
     cfg.profile.general_path = None
     cfg.profile.sample_docs = 500

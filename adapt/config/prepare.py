@@ -146,6 +146,14 @@ class ProfileConfig:
 
 
 @dataclass
+class PrepareRuntimeConfig:
+    # Worker processes for the per-document work (cleaning, filters, personal data, signatures).
+    num_proc: int = 1
+    # Show tqdm progress bars.
+    progress: bool = True
+
+
+@dataclass
 class PrepareJob:
     # Files or folders of documents: .txt (one document per file), .jsonl, .csv/.tsv, .parquet, each
     # optionally gzipped (.gz); folders are read recursively, hidden files skipped.
@@ -158,11 +166,9 @@ class PrepareJob:
     heldout_share: float = 0.1
     # Documents per Parquet shard.
     shard_docs: int = 10000
-    # Worker processes for the per-document work (cleaning, filters, personal data, signatures).
-    num_proc: int = 1
     # Documents per work chunk sent to a worker process.
     chunk_docs: int = 256
-    progress: bool = True
+    runtime: PrepareRuntimeConfig = field(default_factory=PrepareRuntimeConfig)
     read: ReadConfig = field(default_factory=ReadConfig)
     clean: CleanConfig = field(default_factory=CleanConfig)
     boilerplate: BoilerplateConfig = field(default_factory=BoilerplateConfig)
@@ -257,7 +263,8 @@ def validate(cfg: PrepareJob, p: Problems, prefix: str = "") -> None:
                                    f"try {k}domain=general")
     _in_open_unit(p, f"{k}heldout_share", cfg.heldout_share, 0.1)
     p.check(cfg.shard_docs >= 1, f"{k}shard_docs={cfg.shard_docs} must be >= 1; try {k}shard_docs=10000")
-    p.check(cfg.num_proc >= 1, f"{k}num_proc={cfg.num_proc} must be >= 1; try {k}num_proc=1")
+    p.check(cfg.runtime.num_proc >= 1,
+            f"{k}runtime.num_proc={cfg.runtime.num_proc} must be >= 1; try {k}runtime.num_proc=1")
     p.check(cfg.chunk_docs >= 1, f"{k}chunk_docs={cfg.chunk_docs} must be >= 1; try {k}chunk_docs=256")
     _validate_filters(cfg, p, k)
     _validate_dedup_privacy(cfg, p, k)

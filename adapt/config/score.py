@@ -6,19 +6,20 @@ from dataclasses import dataclass, field
 
 from adapt.config.common import EncoderConfig, RuntimeConfig, validate_encoder, validate_runtime
 from adapt.common.errors import Problems
-from adapt.contracts.prepared_corpus import SPLITS
 
 # Scoring variants of adapt.pppl: "token" masks one token per copy (Salazar et al. 2020); "word_l2r" also masks
 # the later pieces of the same word (PLL-word-l2r, Kauf & Ivanova 2023).
 VARIANTS = ("token", "word_l2r")
+# The splits of a prepared corpus (adapt.contracts.prepared_corpus reads them).
+SPLITS = ("train", "heldout")
 
 
 @dataclass
 class CIConfig:
-    # Confidence level of the percentile bootstrap over documents.
-    level: float = 0.95
+    # Two-sided confidence level of the percentile bootstrap over documents.
+    confidence: float = 0.95
     # Bootstrap resamples (0 = no interval).
-    n_resamples: int = 1000
+    bootstrap_resamples: int = 1000
 
 
 @dataclass
@@ -56,6 +57,7 @@ def validate(cfg: ScoreJob, p: Problems, prefix: str = "") -> None:
     p.check(cfg.batch_size >= 1, f"{k}batch_size={cfg.batch_size} must be >= 1; try {k}batch_size=64")
     p.check(cfg.variant in VARIANTS,
             f"{k}variant={cfg.variant!r} is not one of {', '.join(VARIANTS)}; try {k}variant=token")
-    p.check(0.0 < cfg.ci.level < 1.0, f"{k}ci.level={cfg.ci.level} is outside (0, 1); try {k}ci.level=0.95")
-    p.check(cfg.ci.n_resamples >= 0,
-            f"{k}ci.n_resamples={cfg.ci.n_resamples} is negative; try {k}ci.n_resamples=1000 (0 = no interval)")
+    p.check(0.0 < cfg.ci.confidence < 1.0,
+            f"{k}ci.confidence={cfg.ci.confidence} is outside (0, 1); try {k}ci.confidence=0.95")
+    p.check(cfg.ci.bootstrap_resamples >= 0, f"{k}ci.bootstrap_resamples={cfg.ci.bootstrap_resamples} is negative; "
+            f"try {k}ci.bootstrap_resamples=1000 (0 = no interval)")

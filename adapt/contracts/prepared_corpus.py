@@ -14,8 +14,8 @@ import pyarrow.parquet as pq
 
 from adapt.common.errors import InputError
 from adapt.common.io import atomic_write_with
+from adapt.config.score import SPLITS
 
-SPLITS = ("train", "heldout")
 SHARD_GLOB = "part-*.parquet"
 OUTPUT_SCHEMA = pa.schema([("id", pa.string()), ("text", pa.string()), ("source", pa.string()),
                            ("quality", pa.float32()), ("cluster_id", pa.int64()), ("cluster_size", pa.int32()),

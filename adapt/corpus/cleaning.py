@@ -63,7 +63,7 @@ class _TextExtractor(HTMLParser):
             self.parts.append(data)
 
 
-def strip_markup(text: str) -> str:
+def markup_to_text(text: str) -> str:
     """Text content of HTML/XML (stdlib html.parser); plain text with entities only is unescaped."""
     if TAG_RE.search(text):
         parser = _TextExtractor()
@@ -75,7 +75,7 @@ def strip_markup(text: str) -> str:
     return text
 
 
-def repair_mojibake(text: str) -> tuple[str, int]:
+def undo_mojibake(text: str) -> tuple[str, int]:
     """Undo UTF-8 bytes that were decoded as cp1252 ("Ã©" -> "é", "â€™" -> "’"); returns (text, repairs)."""
     count = 0
 
@@ -100,13 +100,13 @@ class CleanResult:
     mojibake_repairs: int
 
 
-def normalise_text(text: str, strip_html: bool = True, fix_mojibake: bool = True) -> CleanResult:
+def normalise_text(text: str, strip_markup: bool = True, repair_mojibake: bool = True) -> CleanResult:
     repairs = 0
-    if fix_mojibake:
-        text, repairs = repair_mojibake(text)
+    if repair_mojibake:
+        text, repairs = undo_mojibake(text)
     before = len(text)
-    if strip_html:
-        text = strip_markup(text)
+    if strip_markup:
+        text = markup_to_text(text)
     markup_share = max(0.0, 1.0 - len(text) / before) if before else 0.0
     text = unicodedata.normalize("NFC", text)
     text = text.replace("\r\n", "\n").replace("\r", "\n").replace("\u2028", "\n").replace("\u2029", "\n\n")

@@ -58,7 +58,8 @@ def normalise_chunk(chunk: list[tuple[str, str, str]]) -> list[tuple]:
     cfg: PrepareJob = _STATE["state"].cfg
     out = []
     for doc_id, text, source in chunk:
-        r = cleaning.normalise_text(text, cfg.clean.strip_markup, cfg.clean.repair_mojibake)
+        r = cleaning.normalise_text(text, strip_markup=cfg.clean.strip_markup,
+                                    repair_mojibake=cfg.clean.repair_mojibake)
         keys = (cleaning.line_keys(r.text, cfg.boilerplate.min_line_chars) if cfg.boilerplate.enabled
                 else np.empty(0, np.uint64))
         out.append((doc_id, r.text, source, r.markup_share, r.control_chars, r.mojibake_repairs, keys,

@@ -246,8 +246,8 @@ def pseudo_perplexity(scores: DocScores) -> float:
     return float(np.exp(-scores.pll.sum() / total))
 
 
-def bootstrap_ci(doc_pll: np.ndarray, doc_tokens: np.ndarray, n_resamples: int, seed: int,
-                 level: float = 0.95) -> tuple[float, float]:
+def bootstrap_ci(doc_pll: np.ndarray, doc_tokens: np.ndarray, bootstrap_resamples: int, seed: int,
+                 confidence: float = 0.95) -> tuple[float, float]:
     """Percentile bootstrap interval of exp(−Σpll/Σtokens), resampling documents with replacement.
 
     Documents are the resampling unit because tokens of one document are not independent. Uses its own
@@ -258,17 +258,18 @@ def bootstrap_ci(doc_pll: np.ndarray, doc_tokens: np.ndarray, n_resamples: int, 
     if pll.shape != tok.shape or pll.ndim != 1 or len(pll) == 0:
         raise ValueError(f"doc_pll and doc_tokens must be 1-D of equal, non-zero length (got {pll.shape}, "
                          f"{tok.shape})")
-    if n_resamples < 1 or not 0 < level < 1:
-        raise ValueError(f"need n_resamples >= 1 and 0 < level < 1 (got {n_resamples}, {level})")
+    if bootstrap_resamples < 1 or not 0 < confidence < 1:
+        raise ValueError(f"need bootstrap_resamples >= 1 and 0 < confidence < 1 (got {bootstrap_resamples}, "
+                         f"{confidence})")
     rng = np.random.default_rng(seed)
     n = len(pll)
     per_chunk = max(1, 2_000_000 // n)  # bounds the (resamples, n) index matrix to ~16 MB
     stats = []
-    for done in range(0, n_resamples, per_chunk):
-        idx = rng.integers(0, n, size=(min(per_chunk, n_resamples - done), n))
+    for done in range(0, bootstrap_resamples, per_chunk):
+        idx = rng.integers(0, n, size=(min(per_chunk, bootstrap_resamples - done), n))
         with np.errstate(divide="ignore", invalid="ignore"):
             stats.append(np.exp(-pll[idx].sum(axis=1) / tok[idx].sum(axis=1)))
     values = np.concatenate(stats)
-    alpha = (1.0 - level) / 2.0
+    alpha = (1.0 - confidence) / 2.0
     low, high = np.nanquantile(values, [alpha, 1.0 - alpha])
     return float(low), float(high)

@@ -106,8 +106,8 @@ def _pass_a(cfg: PrepareJob, spill: Spill, pb: ProfileBuilder, stats: ReadStats)
     """Read and normalise; returns (line hashes of distinct documents, number of distinct documents)."""
     keys, seen = [], set()
     docs = ((d.id, d.text, d.source) for d in read_documents(cfg.inputs, cfg.read, stats))
-    bar = tqdm(desc="clean", unit="doc", disable=not cfg.progress, delay=1.0)
-    with Workers(cfg.num_proc, WorkState(cfg)) as workers:
+    bar = tqdm(desc="clean", unit="doc", disable=not cfg.runtime.progress, delay=1.0)
+    with Workers(cfg.runtime.num_proc, WorkState(cfg)) as workers:
         for results in workers.imap(normalise_chunk, batched(docs, cfg.chunk_docs)):
             rows = []
             for doc_id, text, source, markup, controls, repairs, line_keys, raw_words in results:
@@ -136,8 +136,8 @@ def _pass_a(cfg: PrepareJob, spill: Spill, pb: ProfileBuilder, stats: ReadStats)
 def _pass_b(cfg: PrepareJob, state: WorkState, src: Spill, dst: Spill, pb: ProfileBuilder) -> dict:
     """Filters and signatures; returns per kept document: hash, quality, words, id, signature; and task hits."""
     kept: dict[str, list] = {"hashes": [], "quality": [], "words": [], "ids": [], "sigs": [], "hits": []}
-    bar = tqdm(total=src.count, desc="filter", unit="doc", disable=not cfg.progress, delay=1.0)
-    with Workers(cfg.num_proc, state) as workers:
+    bar = tqdm(total=src.count, desc="filter", unit="doc", disable=not cfg.runtime.progress, delay=1.0)
+    with Workers(cfg.runtime.num_proc, state) as workers:
         res: ChunkResult
         for res in workers.imap(filter_chunk, src.batches(cfg.chunk_docs)):
             pb.merge_chunk(res)
@@ -168,7 +168,7 @@ def _pass_c(cfg: PrepareJob, out: Path, src: Spill, clusters, ids: list[str], pb
     words = {"train": 0, "heldout": 0}
     lengths = []
     i = 0
-    batches = tqdm(src.batches(cfg.chunk_docs), desc="write", unit="chunk", disable=not cfg.progress, delay=1.0)
+    batches = tqdm(src.batches(cfg.chunk_docs), desc="write", unit="chunk", disable=not cfg.runtime.progress, delay=1.0)
     for batch in batches:
         for d in batch:
             c = int(clusters.cluster_id[i])

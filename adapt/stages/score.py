@@ -63,19 +63,21 @@ def select_documents(docs: list[dict], max_docs: int, max_tokens: int, seed: int
 
 
 def _interval(scores: DocScores, cfg: ScoreJob) -> dict:
-    ci = {"level": cfg.ci.level, "low": None, "high": None, "n_resamples": cfg.ci.n_resamples}
-    if cfg.ci.n_resamples == 0:
+    ci = {"confidence": cfg.ci.confidence, "low": None, "high": None,
+          "bootstrap_resamples": cfg.ci.bootstrap_resamples}
+    if cfg.ci.bootstrap_resamples == 0:
         return ci
     if len(scores.tokens) < MIN_DOCS_FOR_CI:
         log.warning("only %d documents scored: the bootstrap interval over documents is unreliable; "
                     "score more documents (max_docs, max_tokens)", len(scores.tokens))
-    ci["low"], ci["high"] = bootstrap_ci(scores.pll, scores.tokens, cfg.ci.n_resamples, cfg.seed, cfg.ci.level)
+    ci["low"], ci["high"] = bootstrap_ci(scores.pll, scores.tokens, cfg.ci.bootstrap_resamples, cfg.seed,
+                                        cfg.ci.confidence)
     return ci
 
 
 def _summary(result: dict) -> list[str]:
     ci = result["ci"]
-    band = (f" ({ci['level']:.0%} CI {ci['low']:,.2f}–{ci['high']:,.2f})" if ci["low"] is not None else "")
+    band = (f" ({ci['confidence']:.0%} CI {ci['low']:,.2f}–{ci['high']:,.2f})" if ci["low"] is not None else "")
     return [f"pseudo-perplexity {result['pseudo_perplexity']:,.2f}{band} on {result['total_tokens']:,} tokens "
             f"of {result['n_docs']:,} documents",
             f"variant {result['variant']}, {result['tokens_per_second']:,.1f} tokens/s; "

@@ -15,7 +15,7 @@ def test_demo_chain_runs_on_the_samples(tmp_path):
 
     cfg = compose_job("demo", ["debug=tiny", f"out_dir={tmp_path / 'demo'}", "pretrain.runtime.progress=false",
                                "compare.runtime.progress=false", "score.runtime.progress=false",
-                               "prepare.progress=false", "prepare_general.progress=false"])
+                               "prepare.runtime.progress=false", "prepare_general.runtime.progress=false"])
     result = run(cfg)
     out = tmp_path / "demo"
     for path in ("prepared/profile.json", "prepared_general/profile.json", "pretrain/final/model.safetensors",

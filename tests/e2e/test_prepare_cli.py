@@ -16,7 +16,7 @@ from pathlib import Path
 import pytest
 
 SCRIPT = Path(sys.executable).with_name("adapt-prepare")
-QUIET = ["quality.gold_path=null", "profile.general_path=null", "progress=false"]
+QUIET = ["quality.gold_path=null", "profile.general_path=null", "runtime.progress=false"]
 
 
 def _good_docs(n: int = 30) -> str:

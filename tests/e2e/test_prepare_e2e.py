@@ -13,7 +13,7 @@ import pyarrow.parquet as pq
 import pytest
 from stdnum import iban as std_iban
 
-from adapt.config.prepare import PrepareJob
+from adapt.config.prepare import PrepareJob, PrepareRuntimeConfig
 from adapt.stages.prepare import run
 from adapt.common.errors import InputError
 from adapt.contracts.prepared_corpus import read_prepared
@@ -88,8 +88,9 @@ def build_corpus(root: Path, seed: int = 0) -> dict:
     return {"near": near, "exact": [(f"d{i}", f"x{i}") for i in range(3)], "iban": iban, "footer_docs": footer_docs}
 
 
-def _config(root: Path, out: str, **kw) -> PrepareJob:
-    cfg = PrepareJob(inputs=[str(root / "in")], out_dir=str(root / out), progress=False, **kw)
+def _config(root: Path, out: str, num_proc: int = 1, **kw) -> PrepareJob:
+    cfg = PrepareJob(inputs=[str(root / "in")], out_dir=str(root / out),
+                     runtime=PrepareRuntimeConfig(num_proc=num_proc, progress=False), **kw)
     cfg.quality.gold_path = str(root / "gold.jsonl")
     cfg.profile.general_path = str(root / "general")
     cfg.contamination.task_dir = str(root / "tasks")
@@ -181,7 +182,7 @@ def test_same_result_with_two_processes_and_split_by_cluster_without_removal(pre
 def test_missing_setting_paths_fail_before_any_output(tmp_path, key, value, needle):
     (tmp_path / "in").mkdir()
     (tmp_path / "in" / "a.txt").write_text("tenant paid the rent " * 10)
-    cfg = PrepareJob(inputs=[str(tmp_path / "in")], out_dir=str(tmp_path / "out"), progress=False)
+    cfg = PrepareJob(inputs=[str(tmp_path / "in")], out_dir=str(tmp_path / "out"), runtime=PrepareRuntimeConfig(progress=False))
     cfg.quality.gold_path = cfg.profile.general_path = None
     section, field = key.split(".")
     setattr(getattr(cfg, section), field, str(tmp_path / value))

@@ -52,7 +52,7 @@ def _texts(tmp_path: Path) -> Path:
 
 def _overrides(encoder: Path, texts: Path, out: Path, *extra: str) -> list[str]:
     return [f"encoder.name_or_path={encoder}", "encoder.max_seq_len=32", f"texts={texts}", f"out_dir={out}",
-            "runtime.progress=false", "runtime.num_threads=1", "batch_size=16", "ci.n_resamples=300", *extra]
+            "runtime.progress=false", "runtime.num_threads=1", "batch_size=16", "ci.bootstrap_resamples=300", *extra]
 
 
 def test_score_job_writes_consistent_scores(tiny_encoder, tmp_path):
@@ -67,7 +67,7 @@ def test_score_job_writes_consistent_scores(tiny_encoder, tmp_path):
     assert scores["pseudo_perplexity"] == pytest.approx(
         math.exp(-sum(d["pll"] for d in docs) / scores["total_tokens"]), rel=1e-9)
     ci = scores["ci"]
-    assert ci["level"] == 0.95 and ci["n_resamples"] == 300
+    assert ci["confidence"] == 0.95 and ci["bootstrap_resamples"] == 300
     assert ci["low"] < scores["pseudo_perplexity"] < ci["high"]
     assert re.fullmatch(r"[0-9a-f]{64}", scores["tokenizer_vocab_sha256"])
     assert scores["variant"] == "token" and scores["tokens_per_second"] > 0
@@ -111,9 +111,9 @@ def test_untrained_head_is_refused_unless_allowed(tiny_encoder_headless, tmp_pat
 
 def test_bad_config_values_are_named(tmp_path):
     with pytest.raises(ConfigError) as err:
-        compose_job("score", [f"texts={tmp_path}", "variant=word", "ci.level=1.5", "batch_size=0"])
+        compose_job("score", [f"texts={tmp_path}", "variant=word", "ci.confidence=1.5", "batch_size=0"])
     message = str(err.value)
-    assert "variant='word'" in message and "ci.level=1.5" in message and "batch_size=0" in message
+    assert "variant='word'" in message and "ci.confidence=1.5" in message and "batch_size=0" in message
 
 
 def test_debug_preset_runs_within_its_budget(tmp_path):

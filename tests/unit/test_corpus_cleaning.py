@@ -33,9 +33,9 @@ def test_html_is_stripped_to_its_text():
 def test_mojibake_is_repaired():
     broken = "café’s résumé".encode("utf-8").decode("cp1252")  # UTF-8 read as cp1252
     assert broken != "café’s résumé"
-    text, n = cleaning.repair_mojibake(broken)
+    text, n = cleaning.undo_mojibake(broken)
     assert text == "café’s résumé" and n == 4  # é, ’, é, é
-    assert cleaning.repair_mojibake("São Paulo, año, Ångström")[1] == 0  # real accented text is left alone
+    assert cleaning.undo_mojibake("São Paulo, año, Ångström")[1] == 0  # real accented text is left alone
 
 
 def test_mojibake_with_bytes_cp1252_leaves_undefined_is_repaired():
@@ -44,7 +44,7 @@ def test_mojibake_with_bytes_cp1252_leaves_undefined_is_repaired():
     # index-windows-1252; from memory), so the mojibake of “see attached” ends in "â€" + U+009D
     broken = "“see attached” – Ramón".encode("utf-8").decode("cp1252", errors="replace").replace("\ufffd", "\x9d")
     assert "\x9d" in broken
-    text, n = cleaning.repair_mojibake(broken)
+    text, n = cleaning.undo_mojibake(broken)
     assert text == "“see attached” – Ramón" and n == 4
     assert cleaning.normalise_text(broken).text == "“see attached” – Ramón"
 
@@ -100,7 +100,7 @@ def test_both_prepare_passes_key_documents_with_document_key(tmp_path, monkeypat
     """Pass A (distinct documents for boilerplate counting) and pass B (exact-duplicate hashes) must agree."""
     import sys
 
-    from adapt.config.prepare import PrepareJob
+    from adapt.config.prepare import PrepareJob, PrepareRuntimeConfig
     from adapt.corpus import docwork
     from adapt.corpus.profile_builder import ProfileBuilder
     from adapt.corpus.readers import ReadStats
@@ -117,7 +117,7 @@ def test_both_prepare_passes_key_documents_with_document_key(tmp_path, monkeypat
     monkeypatch.setattr(cleaning, "document_key", spy)
     texts = ["The tenant paid the rent on time.", "the TENANT paid  the rent\non time."]
     (tmp_path / "docs.jsonl").write_text("".join(json.dumps({"text": t}) + "\n" for t in texts))
-    cfg = PrepareJob(inputs=[str(tmp_path / "docs.jsonl")], progress=False)
+    cfg = PrepareJob(inputs=[str(tmp_path / "docs.jsonl")], runtime=PrepareRuntimeConfig(progress=False))
     cfg.clean.min_words = 1
     spill = Spill(tmp_path / "a.parquet", prepare.NORMALISED)
     _, distinct = prepare._pass_a(cfg, spill, ProfileBuilder(cfg), ReadStats())

@@ -15,8 +15,8 @@ BASE = ["inputs=[some/folder]"]
 # One non-default value per option (key=value as typed on the command line), checked after composing.
 OVERRIDES = {
     "out_dir": ("elsewhere", "elsewhere"), "seed": ("3", 3), "domain": ("clinical", "clinical"),
-    "heldout_share": ("0.2", 0.2), "shard_docs": ("50", 50), "num_proc": ("2", 2), "chunk_docs": ("16", 16),
-    "progress": ("false", False),
+    "heldout_share": ("0.2", 0.2), "shard_docs": ("50", 50), "runtime.num_proc": ("2", 2), "chunk_docs": ("16", 16),
+    "runtime.progress": ("false", False),
     "read.text_field": ("body", "body"), "read.id_field": ("key", "key"),
     "read.fallback_encoding": ("latin-1", "latin-1"), "read.csv_delimiter": ("';'", ";"),
     "clean.strip_markup": ("false", False), "clean.repair_mojibake": ("false", False),

@@ -10,7 +10,7 @@ import pytest
 
 from adapt.common.errors import InputError
 from adapt.config.common import PACKAGED_ENCODER, EncoderConfig
-from adapt.config.prepare import PrepareJob
+from adapt.config.prepare import PrepareJob, PrepareRuntimeConfig
 from adapt.contracts.model_folder import resolve_model_folder
 from adapt.stages import prepare
 from adapt.stages.compare import resolve_checkpoint
@@ -21,7 +21,7 @@ from tests.conftest import build_tiny_encoder
 def _prepare_job(tmp_path, encoder: str) -> PrepareJob:
     doc = tmp_path / "doc.txt"
     doc.write_text("The tenant paid the rent.")
-    cfg = PrepareJob(inputs=[str(doc)], out_dir=str(tmp_path / "prepared"), progress=False)
+    cfg = PrepareJob(inputs=[str(doc)], out_dir=str(tmp_path / "prepared"), runtime=PrepareRuntimeConfig(progress=False))
     cfg.profile.encoder.name_or_path = encoder
     return cfg
 

@@ -221,7 +221,7 @@ def test_bootstrap_contains_estimate_and_narrows_with_more_documents():
     for n in (20, 400):
         pll, tok = _synthetic_docs(n, seed=1)
         estimate = math.exp(-pll.sum() / tok.sum())
-        low, high = bootstrap_ci(pll, tok, n_resamples=2000, seed=0, level=0.95)
+        low, high = bootstrap_ci(pll, tok, bootstrap_resamples=2000, seed=0, confidence=0.95)
         assert low < estimate < high
         widths.append(high - low)
     assert widths[1] < widths[0] / 2  # ~1/sqrt(n): 20 -> 400 documents should shrink it ~4.5x
@@ -231,8 +231,8 @@ def test_bootstrap_is_seeded_and_level_sets_width():
     pll, tok = _synthetic_docs(60, seed=2)
     assert bootstrap_ci(pll, tok, 500, seed=3) == bootstrap_ci(pll, tok, 500, seed=3)
     assert bootstrap_ci(pll, tok, 500, seed=3) != bootstrap_ci(pll, tok, 500, seed=4)
-    low90, high90 = bootstrap_ci(pll, tok, 4000, seed=3, level=0.90)
-    low99, high99 = bootstrap_ci(pll, tok, 4000, seed=3, level=0.99)
+    low90, high90 = bootstrap_ci(pll, tok, 4000, seed=3, confidence=0.90)
+    low99, high99 = bootstrap_ci(pll, tok, 4000, seed=3, confidence=0.99)
     assert low99 < low90 and high90 < high99
 
 
@@ -248,7 +248,7 @@ def test_bootstrap_matches_scipy_percentile_bootstrap():
     ref = scipy.stats.bootstrap((pll, tok.astype(float)), ratio, paired=True, vectorized=True,
                                 n_resamples=20000, confidence_level=0.95, method="percentile",
                                 rng=np.random.default_rng(11)).confidence_interval
-    low, high = bootstrap_ci(pll, tok, n_resamples=20000, seed=0, level=0.95)
+    low, high = bootstrap_ci(pll, tok, bootstrap_resamples=20000, seed=0, confidence=0.95)
     width = ref.high - ref.low
     assert abs(low - ref.low) < 0.15 * width
     assert abs(high - ref.high) < 0.15 * width

@@ -197,7 +197,7 @@ def test_score_job_writes_the_chosen_precision(monkeypatch, caplog, tmp_path, ti
                              enumerate(["the tenant gave notice", "the nurse checked the dose"])), encoding="utf-8")
     cfg = compose_job("score", [f"encoder.name_or_path={tiny_encoder}", "encoder.max_seq_len=32", f"texts={texts}",
                                 f"out_dir={tmp_path / 'out'}", "runtime.progress=false", "runtime.num_threads=1",
-                                "runtime.device=cpu", "ci.n_resamples=0"])
+                                "runtime.device=cpu", "ci.bootstrap_resamples=0"])
     with caplog.at_level(logging.INFO, logger="adapt.common.runtime"):
         run(cfg)
     scores = json.loads((tmp_path / "out" / "scores.json").read_text())

@@ -7,19 +7,16 @@ task text shorter than n words overlaps when its whole word sequence occurs in t
 
 from __future__ import annotations
 
-import logging
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
+from adapt.common.errors import InputError
 from adapt.config.prepare import TASK_SPLITS, ContaminationConfig
 from adapt.contracts.labelled_task import FORMAT_NAMES, find_split_files, read_labelled_file
 from adapt.corpus.cleaning import fold_text
 from adapt.corpus.minhash import Shingler
-from adapt.common.errors import InputError
-
-log = logging.getLogger(__name__)
 
 
 @dataclass

@@ -9,7 +9,6 @@
 
 from __future__ import annotations
 
-import logging
 import random
 import re
 from collections import Counter
@@ -18,8 +17,6 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from adapt.corpus.stopwords import STOPWORDS
-
-log = logging.getLogger(__name__)
 
 LENGTH_BINS = [0, 25, 50, 100, 200, 400, 800, 1600, 3200, 6400]
 UNIGRAM_RE = re.compile(r"[^\W\d_]+(?:['’][^\W\d_]+)?", re.UNICODE)  # words with at least one letter

@@ -9,7 +9,6 @@ Input files are only ever opened for reading.
 
 from __future__ import annotations
 
-import logging
 import shutil
 import time
 from pathlib import Path
@@ -19,24 +18,22 @@ import numpy as np
 import pyarrow as pa
 from tqdm import tqdm
 
+from adapt.common.errors import InputError, Problems, UserError
+from adapt.common.io import atomic_write_json, atomic_write_text
 from adapt.config.common import optional_str
 from adapt.config.prepare import PrepareJob, validate
+from adapt.contracts.labelled_task import FORMAT_NAMES, find_split_files
+from adapt.contracts.manifest import RunFolder
+from adapt.contracts.model_folder import resolve_model_folder
+from adapt.contracts.prepared_corpus import OUTPUT_SCHEMA, REMOVED_SCHEMA, ShardWriter, clear_prepared
 from adapt.corpus import cleaning
 from adapt.corpus.contamination import TaskIndex, contamination_summary, load_task_texts
-from adapt.corpus.docwork import ChunkResult, WorkState, Workers, filter_chunk, normalise_chunk
+from adapt.corpus.docwork import ChunkResult, Workers, WorkState, filter_chunk, normalise_chunk
 from adapt.corpus.profile import TextSample, length_histogram, tokenizer_stats, unigram_overlap
 from adapt.corpus.profile_builder import ProfileBuilder, summary_lines
 from adapt.corpus.readers import ReadStats, list_input_files, read_documents
 from adapt.corpus.shards import Spill
 from adapt.corpus.split import assign_heldout
-from adapt.common.errors import InputError, Problems, UserError
-from adapt.contracts.labelled_task import FORMAT_NAMES, find_split_files
-from adapt.contracts.manifest import RunFolder
-from adapt.contracts.model_folder import resolve_model_folder
-from adapt.contracts.prepared_corpus import OUTPUT_SCHEMA, REMOVED_SCHEMA, ShardWriter, clear_prepared
-from adapt.common.io import atomic_write_json, atomic_write_text
-
-log = logging.getLogger(__name__)
 
 NORMALISED = pa.schema([("id", pa.string()), ("text", pa.string()), ("source", pa.string()),
                         ("markup_share", pa.float32())])

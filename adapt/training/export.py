@@ -3,15 +3,12 @@ exact pseudo-perplexity figures measured at the start and end of a run."""
 
 from __future__ import annotations
 
-import logging
 from pathlib import Path
 
 import torch
 
-from adapt.config.pretrain import PretrainJob
 from adapt.common.io import atomic_write_text
-
-log = logging.getLogger(__name__)
+from adapt.config.pretrain import PretrainJob
 
 CAUTION = ("Trained on text that may come from legal or clinical records. De-identify before training, follow the "
            "data-protection law that applies to you and your institution's governance, and check the corpus audit "

@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import logging
-
 import torch
 from tqdm.auto import tqdm
 
@@ -11,8 +9,6 @@ from adapt.common.seeding import step_seed
 from adapt.training.encoder import head_parameter_names
 from adapt.training.mlm_loss import MaskedOnlyMlm, MaskingPlan
 from adapt.training.packing import BatchCursor, PackedSequences
-
-log = logging.getLogger(__name__)
 
 
 def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPlan, *, steps: int,

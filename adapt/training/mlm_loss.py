@@ -7,8 +7,6 @@ that wrappers for several processes (DDP) and autocast see it.
 
 from __future__ import annotations
 
-import logging
-
 import torch
 import torch.nn.functional as F
 
@@ -16,8 +14,6 @@ from adapt.common.seeding import step_seed
 from adapt.training.encoder import encoder_body, mlm_head
 from adapt.training.masking import IGNORE_INDEX, mask_tokens, replacement_ids, special_positions
 from adapt.training.packing import PackedSequences
-
-log = logging.getLogger(__name__)
 
 
 class MaskedOnlyMlm(torch.nn.Module):

@@ -7,7 +7,6 @@ Every variant implements the same contract, checked by one table-driven test: ``
 
 from __future__ import annotations
 
-import logging
 from typing import Callable
 
 import torch
@@ -15,8 +14,6 @@ from transformers import PreTrainedModel
 
 from adapt.config.pretrain import AdapterConfig
 from adapt.training.encoder import head_parameter_names
-
-log = logging.getLogger(__name__)
 
 
 class Adapter:

@@ -16,7 +16,7 @@ from hydra.core.config_store import ConfigStore
 from omegaconf import DictConfig, OmegaConf
 
 from adapt.config import compare, demo, prepare, pretrain, report, score
-from adapt.common.errors import Problems
+from adapt.common.errors import ConfigError, Problems
 
 
 
@@ -71,6 +71,9 @@ def to_job(job: str, cfg: DictConfig | dict) -> Any:
     container = OmegaConf.to_container(cfg, resolve=True)
     container.pop("hydra", None)
     structured = OmegaConf.merge(OmegaConf.structured(spec.schema), container)
+    missing = sorted(OmegaConf.missing_keys(structured))
+    if missing:  # keys without a default ("???"): name them all, rather than OmegaConf's first one
+        raise ConfigError("; ".join(f"{key} is not set and has no default; pass {key}=<value>" for key in missing))
     obj = OmegaConf.to_object(structured)
     problems = Problems()
     spec.validate(obj, problems)

@@ -67,3 +67,13 @@ def test_cli_reports_bad_config_in_one_line_with_exit_2(args, tmp_path):
     lines = [l for l in proc.stderr.splitlines() if l.strip()]
     assert len(lines) == 1 and lines[0].startswith("error: "), proc.stderr
     assert "Traceback" not in proc.stderr
+
+
+@pytest.mark.parametrize("job,key", [("pretrain", "corpus_dir"), ("compare", "task.dir"), ("score", "texts")])
+def test_a_key_without_default_is_named_with_the_fix(job, key):
+    from adapt.common.errors import ConfigError
+
+    with pytest.raises(ConfigError) as err:
+        compose_job(job, [])
+    assert f"{key} is not set" in str(err.value) and f"pass {key}=" in str(err.value)
+    assert "Structured config" not in str(err.value)

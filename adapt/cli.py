@@ -31,6 +31,9 @@ from adapt.common.io import read_json  # noqa: E402
 from adapt.contracts.manifest import MANIFEST, record_launch  # noqa: E402
 
 EXIT_USER_ERROR = 2
+# A job that stopped before its end (a signal, or pretrain's schedule.stop_after_steps) and that the same command
+# resumes: EX_TEMPFAIL of sysexits.h ("try again later"), distinct from success (0) and from errors (1, 2).
+EXIT_STOPPED = 75
 _MULTIRUN_FLAGS = ("-m", "--multirun")
 _HYDRA_FLAGS_WITHOUT_CHECK = ("--help", "-h", "--hydra-help", "--cfg", "-c", "--info",
                               "--shell-completion", "-sc", "--run", "-r", "--resolve", "-p", "--package")
@@ -111,6 +114,14 @@ def _out_dirs(config: Any, prefix: str = "") -> Iterator[tuple[str, str]]:
             yield from _out_dirs(value, f"{prefix}{f.name}.")
         elif f.name == "out_dir" and value:
             yield f"{prefix}out_dir", os.path.abspath(value)
+
+
+def _refuse_unwritable(config: Any) -> None:
+    """Hydra writes into out_dir before the job starts: a folder that cannot be written ends here, in one line."""
+    from adapt.contracts.run_folder import ensure_writable
+
+    for key, folder in _out_dirs(config):
+        ensure_writable(folder, key)
 
 
 def _refuse_shared_out_dirs(jobs: list[SweepJob]) -> None:
@@ -195,7 +206,7 @@ def _check_overrides(job: str, argv: list[str]) -> list[SweepJob] | None:
             return plan_sweep(job, overrides)
         with initialize_config_dir(version_base="1.3", config_dir=str(CONF_DIR), job_name=job):
             cfg = compose(config_name=job, overrides=overrides)
-        to_job(job, cfg)
+        _refuse_unwritable(to_job(job, cfg))
     except Exception as exc:  # UserError or Hydra/OmegaConf composition error: one line, no traceback
         _fail(_reason(job, exc))
     return None
@@ -231,6 +242,7 @@ def _launch(job: str, module: str) -> None:
     """Check overrides, then run ``<module>.run`` under Hydra (the stage is imported only after the check)."""
     register_schemas()
     sweep = _check_overrides(job, sys.argv[1:])
+    stopped: list[str] = []  # jobs that stopped before their end (resumable)
 
     @hydra.main(version_base="1.3", config_path=str(CONF_DIR), config_name=job)
     def _task(cfg: DictConfig) -> None:
@@ -249,8 +261,14 @@ def _launch(job: str, module: str) -> None:
             _fail(error_prefix + str(exc))
         for line in result.get("summary", []) if rank0 else []:
             print(line)
+        if result.get("completed") is False:
+            stopped.append(str(result.get("stopped_by")))
+            if result.get("stopped_by") != "schedule.stop_after_steps":
+                sys.exit(EXIT_STOPPED)  # a signal: no further job of a sweep starts
 
     _task()
+    if stopped:
+        sys.exit(EXIT_STOPPED)
 
 
 def prepare_main() -> None:

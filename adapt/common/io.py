@@ -9,6 +9,7 @@ import hashlib
 import json
 import os
 import secrets
+import shutil
 from pathlib import Path
 from typing import Any, Callable, Iterable
 
@@ -34,6 +35,31 @@ def fsync_dir(folder: Path) -> None:
         os.fsync(fd)
     finally:
         os.close(fd)
+
+
+def fsync_tree(folder: Path) -> None:
+    """fsync every file under ``folder``, then every folder bottom-up, ``folder`` itself last: what a rename of
+    ``folder`` needs before it so that the renamed folder's content survives a power loss."""
+    folder = Path(folder)
+    for path in sorted(folder.rglob("*")):
+        if path.is_file():
+            fsync_file(path)
+    for sub in sorted((p for p in folder.rglob("*") if p.is_dir()), key=lambda p: len(p.parts), reverse=True):
+        fsync_dir(sub)
+    fsync_dir(folder)
+
+
+def replace_folder(tmp: Path, final: Path) -> None:
+    """Rename the complete, fsynced folder ``tmp`` to ``final`` and fsync the parent. An existing ``final`` is
+    first renamed aside (POSIX cannot rename over a non-empty folder) and deleted once the new one is in place."""
+    tmp, final = Path(tmp), Path(final)
+    aside = final.with_name(f".replaced-{final.name}")
+    if final.exists():
+        shutil.rmtree(aside, ignore_errors=True)
+        os.rename(final, aside)
+    os.rename(tmp, final)
+    fsync_dir(final.parent)
+    shutil.rmtree(aside, ignore_errors=True)
 
 
 def atomic_write_with(path: Path, write: Callable[[Path], None]) -> None:

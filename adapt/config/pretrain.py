@@ -60,6 +60,11 @@ class AdapterConfig:
     num_top_layers: int = 2
 
 
+# The adapter settings each training variant uses: only these (and adapter.kind) are part of a run's fingerprint.
+ADAPTER_SETTINGS = {"full": (), "embeddings": (), "top_layers": ("num_top_layers",),
+                    "lora": ("r", "alpha", "dropout", "target_modules")}
+
+
 @dataclass
 class EvalConfig:
     # Cheap held-out MLM loss with a fixed mask every N steps (0 = only at start and end).
@@ -80,6 +85,13 @@ class CheckpointConfig:
 
 
 @dataclass
+class DataConfig:
+    # Folder for the token cache (each split tokenised and packed once, memory-mapped by every process and on
+    # every resume); shareable between runs on the same corpus. null = <out_dir>/token_cache.
+    cache_dir: Optional[str] = None
+
+
+@dataclass
 class PretrainJob:
     # Prepared corpus folder (output of the prepare job: train/ and heldout/ Parquet shards).
     corpus_dir: str = "???"
@@ -90,6 +102,7 @@ class PretrainJob:
     # auto: continue from the newest checkpoint in out_dir if there is one; never: refuse an existing run;
     # or a path to a checkpoint folder.
     resume: str = "auto"
+    data: DataConfig = field(default_factory=DataConfig)
     encoder: EncoderConfig = field(default_factory=EncoderConfig)
     masking: MaskingConfig = field(default_factory=MaskingConfig)
     schedule: ScheduleConfig = field(default_factory=ScheduleConfig)
@@ -98,6 +111,18 @@ class PretrainJob:
     eval: EvalConfig = field(default_factory=EvalConfig)
     checkpoint: CheckpointConfig = field(default_factory=CheckpointConfig)
     runtime: RuntimeConfig = field(default_factory=RuntimeConfig)
+
+
+# Keys that may change when a run is resumed; every other key (and the content of the encoder, tokenizer and
+# corpus) is part of the run's fingerprint, recorded in each checkpoint and compared on resume. Locations are
+# free to change because their content is compared instead; these keys change where and how the run goes on, not
+# what it computes (device and precision change its numerics, not its definition).
+RESUME_SAFE_KEYS = (
+    "out_dir", "resume", "corpus_dir", "general_dir", "encoder.name_or_path", "encoder.trust_remote_code",
+    "data.cache_dir", "schedule.stop_after_steps", "eval.every_steps", "eval.pppl_batch_size",
+    "checkpoint.save_every_steps", "checkpoint.keep_last",
+    "runtime.device", "runtime.precision", "runtime.num_threads", "runtime.progress",
+)
 
 
 def validate(cfg: PretrainJob, p: Problems, prefix: str = "") -> None:

@@ -15,10 +15,10 @@ FOLDER_KEYS = ("prepared_dir", "general_dir", "pretrain_dir", "score_dirs", "com
 
 @dataclass
 class PairedCIConfig:
-    # Confidence level of the paired bootstrap interval of the pseudo-perplexity ratio (adapted / base).
-    level: float = 0.95
+    # Two-sided confidence level of the paired bootstrap interval of the pseudo-perplexity ratio (adapted / base).
+    confidence: float = 0.95
     # Bootstrap resamples over the documents both checkpoints scored (0 = no interval).
-    n_resamples: int = 2000
+    bootstrap_resamples: int = 2000
     # Seed of the resampling.
     seed: int = 0
 
@@ -56,7 +56,8 @@ def validate(cfg: ReportJob, p: Problems, prefix: str = "") -> None:
                 if optional_str(value) and Path(value).resolve() == out:
                     p.add(f"{k}out_dir={cfg.out_dir} is the folder given as {k}{key}; the report never writes "
                           f"into the folders it reads: choose another out_dir, e.g. {k}out_dir={out.parent}/report")
-    p.check(0.0 < cfg.paired_ci.level < 1.0,
-            f"{k}paired_ci.level={cfg.paired_ci.level} is outside (0, 1); try {k}paired_ci.level=0.95")
-    p.check(cfg.paired_ci.n_resamples >= 0,
-            f"{k}paired_ci.n_resamples={cfg.paired_ci.n_resamples} is negative; try {k}paired_ci.n_resamples=2000")
+    p.check(0.0 < cfg.paired_ci.confidence < 1.0,
+            f"{k}paired_ci.confidence={cfg.paired_ci.confidence} is outside (0, 1); try {k}paired_ci.confidence=0.95")
+    p.check(cfg.paired_ci.bootstrap_resamples >= 0,
+            f"{k}paired_ci.bootstrap_resamples={cfg.paired_ci.bootstrap_resamples} is negative; "
+            f"try {k}paired_ci.bootstrap_resamples=2000 (0 = no interval)")

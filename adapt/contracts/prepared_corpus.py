@@ -8,6 +8,7 @@
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Iterator
 
 import pyarrow as pa
 import pyarrow.parquet as pq
@@ -68,8 +69,8 @@ def is_prepared_corpus(path: Path | str) -> bool:
     return path.is_dir() and any((path / s).is_dir() for s in SPLITS)
 
 
-def read_prepared(corpus_dir: Path | str, split: str, columns: list[str] | None = None) -> list[dict]:
-    """Rows of one split of a prepared corpus, in shard order."""
+def split_shards(corpus_dir: Path | str, split: str) -> list[Path]:
+    """The Parquet shards of one split of a prepared corpus, in order."""
     corpus_dir = Path(corpus_dir)
     split_dir = corpus_dir / split
     if not split_dir.is_dir():
@@ -77,8 +78,32 @@ def read_prepared(corpus_dir: Path | str, split: str, columns: list[str] | None 
     shards = sorted(split_dir.glob(SHARD_GLOB))
     if not shards:
         raise InputError(f"{split_dir}: no {SHARD_GLOB} shards; run the prepare job into {corpus_dir} again")
-    rows: list[dict] = []
+    return shards
+
+
+def iter_text_batches(shards: list[Path], batch_rows: int) -> Iterator[list[str]]:
+    """The ``text`` column of the shards, streamed in batches of at most ``batch_rows`` documents (only that
+    column is read; memory stays flat however large the split is). A missing text counts as empty."""
     for shard in shards:
+        try:
+            reader = pq.ParquetFile(shard)
+        except (pa.ArrowException, OSError) as exc:
+            raise InputError(f"{shard}: not a readable Parquet file ({exc}); run the prepare job again") from exc
+        if "text" not in reader.schema_arrow.names:
+            raise InputError(f"{shard}: no 'text' column; it was not written by the prepare job")
+        for batch in reader.iter_batches(batch_size=batch_rows, columns=["text"]):
+            yield [t if t is not None else "" for t in batch.column(0).to_pylist()]
+
+
+def count_rows(shards: list[Path]) -> int:
+    """Documents in the shards, from the Parquet footers (nothing else is read)."""
+    return sum(pq.ParquetFile(shard).metadata.num_rows for shard in shards)
+
+
+def read_prepared(corpus_dir: Path | str, split: str, columns: list[str] | None = None) -> list[dict]:
+    """Rows of one split of a prepared corpus, in shard order."""
+    rows: list[dict] = []
+    for shard in split_shards(corpus_dir, split):
         table = pq.read_table(shard, columns=columns)
         if "text" not in table.column_names:
             raise InputError(f"{shard}: no 'text' column; it was not written by the prepare job")

@@ -66,11 +66,32 @@ class Details:
 
 
 @dataclass
+class Row:
+    """Blocks side by side where the page is wide enough (one after the other in Markdown)."""
+
+    columns: list[list["Block"]] = field(default_factory=list)
+
+
+@dataclass
 class Verdict:
     outcome: str  # "better" | "worse" | "none" | "missing": how the box is marked (in words, not colour alone)
     label: str
     sentence: str
     lines: list[str] = field(default_factory=list)
+
+
+@dataclass
+class KeyFigure:
+    label: str
+    value: str
+    detail: str
+
+
+@dataclass
+class KeyFigures:
+    """A strip of a few figures, each with what it is and where it comes from."""
+
+    figures: list[KeyFigure]
 
 
 @dataclass
@@ -80,7 +101,7 @@ class Sources:
     rows: list[tuple[str, str, str, str]]
 
 
-Block = Union[Para, Missing, Table, Figure, Bullets, Sub, Pre, Details, Verdict, Sources]
+Block = Union[Para, Missing, Table, Figure, Bullets, Sub, Pre, Details, Row, Verdict, KeyFigures, Sources]
 
 
 @dataclass

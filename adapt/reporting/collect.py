@@ -8,15 +8,13 @@ and print as missing. Nothing here draws or formats; ``html`` and ``markdown`` r
 from __future__ import annotations
 
 import datetime as _dt
-import json
 from pathlib import Path
 from typing import Any
 
 from adapt import __version__
-from adapt.common.errors import InputError
 from adapt.config.common import optional_str
 from adapt.config.report import ReportJob
-from adapt.contracts.run_folder import MetricsLog
+from adapt.contracts.run_folder import METRICS, MetricsLog
 from adapt.reporting import results
 from adapt.reporting.sources import Source, expand_score_dirs, open_source, read_json_file
 from adapt.reporting.values import dig, number
@@ -158,16 +156,10 @@ def training_section(c: Collected, src: Source) -> dict[str, Any]:
     out: dict[str, Any] = {"state": src.state, "note": src.note, "path": str(src.path) if src.path else None}
     if src.state not in ("read", "incomplete"):
         return out
-    log_path = src.path / "metrics.jsonl"
-    try:
-        records = [r for r in MetricsLog(log_path).read() if isinstance(r, dict)]
-    except json.JSONDecodeError as exc:
-        raise InputError(f"pretrain_dir: {log_path} has a broken line ({exc.msg}); the run may have been "
-                         "interrupted while writing: resume it with adapt-pretrain resume=auto") from exc
+    log_path = src.path / METRICS
+    records = [r for r in MetricsLog(log_path).read() if isinstance(r, dict)]  # a torn last line is skipped
     if log_path.is_file():
         c.files_read.append(log_path)
-    if src.state == "incomplete":
-        out["note"] = src.note.replace("its figures are left out", "the curves below stop where it stopped")
     train = _last_per_step(records, "train")
     evals = [r for r in _last_per_step(records, "start") + train + _last_per_step(records, "end")
              if any(k.startswith("heldout_loss_") for k in r)]

@@ -7,9 +7,10 @@ import base64
 import html
 import re
 
-from adapt.reporting.blocks import (Block, Bullets, Details, Figure, Missing, Para, Pre, Section, Sources, Sub,
-                                    Table, Verdict)
+from adapt.reporting.blocks import (Block, Bullets, Details, Figure, KeyFigures, Missing, Para, Pre, Row, Section,
+                                    Sources, Sub, Table, Verdict)
 from adapt.reporting.plots import Plot
+from adapt.reporting.values import fmt_time
 
 _NUMERIC = re.compile(r"^[−+\-]?[\d,]*\.?\d+(e[+-]?\d+)?%?( ± [\d.]+)?$|^—$")
 
@@ -42,7 +43,14 @@ p.note { color: var(--muted); font-size: 13.5px; }
 .verdict.better .label { color: var(--better); }
 .verdict.worse .label { color: var(--worse); }
 .verdict .sentence { font-size: 19px; font-weight: 600; margin: 0 0 6px; }
-.verdict ul { margin: 6px 0 0; padding-left: 18px; font-size: 14px; }
+.verdict ul { margin: 6px 0 0; padding-left: 18px; font-size: 13px; color: var(--muted); }
+.glance { display: grid; grid-template-columns: repeat(auto-fit, minmax(190px, 1fr)); gap: 10px; margin: 0 0 14px; }
+.tile { background: var(--card); border: 1px solid var(--rule); border-top: 3px solid var(--accent);
+        padding: 8px 12px; }
+.tile p { margin: 0; }
+.tile .what { font-size: 12px; color: var(--muted); text-transform: uppercase; letter-spacing: .05em; }
+.tile .value { font-size: 20px; font-weight: 700; font-variant-numeric: tabular-nums; white-space: nowrap; }
+.tile .detail { font-size: 12.5px; color: var(--muted); }
 .missing { background: #fff6e0; border: 1px dashed #d9a441; padding: 6px 12px; margin: 8px 0;
            font-size: 14px; }
 .missing::before { content: "Missing · "; font-weight: 700; color: var(--missing); }
@@ -54,6 +62,8 @@ th, td { border-bottom: 1px solid var(--rule); padding: 4px 10px; text-align: le
 th { background: #f1eee6; font-weight: 600; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
 .tablewrap { overflow-x: auto; }
+.row { display: flex; flex-wrap: wrap; gap: 8px 36px; align-items: flex-start; }
+.row > div { flex: 0 1 auto; min-width: 0; max-width: 100%; }
 .caption { color: var(--muted); font-size: 12.5px; margin: 0 0 10px; }
 .state { font-weight: 600; }
 .state.read { color: var(--better); }
@@ -111,6 +121,9 @@ def render_block(b: Block, plots: dict[str, Plot]) -> str:
         return f"<h3>{_e(b.title)}</h3>"
     if isinstance(b, Pre):
         return f"<pre>{_e(b.text)}</pre>"
+    if isinstance(b, Row):
+        return '<div class="row">' + "".join("<div>" + "".join(render_block(x, plots) for x in column) + "</div>"
+                                             for column in b.columns) + "</div>"
     if isinstance(b, Details):
         inner = "".join(render_block(x, plots) for x in b.blocks)
         return f"<details><summary>{_e(b.summary)}</summary>{inner}</details>"
@@ -118,6 +131,10 @@ def render_block(b: Block, plots: dict[str, Plot]) -> str:
         lines = "".join(f"<li>{_e(x)}</li>" for x in b.lines)
         return (f'<div class="verdict {_e(b.outcome)}" role="status"><p class="label">{_e(b.label)}</p>'
                 f'<p class="sentence">{_e(b.sentence)}</p>' + (f"<ul>{lines}</ul>" if lines else "") + "</div>")
+    if isinstance(b, KeyFigures):
+        return '<div class="glance">' + "".join(
+            f'<div class="tile"><p class="what">{_e(f.label)}</p><p class="value">{_e(f.value)}</p>'
+            f'<p class="detail">{_e(f.detail)}</p></div>' for f in b.figures) + "</div>"
     if isinstance(b, Sources):
         return _sources(b)
     raise RuntimeError(f"no HTML for block {type(b).__name__}")
@@ -135,6 +152,6 @@ def render_html(report: dict, sections: list[Section], plots: dict[str, Plot]) -
             "style-src 'unsafe-inline'\">"
             f"<title>{title}</title><style>{CSS}</style></head><body>"
             f"<header><p class=\"meta\">adapt {_e(report.get('tool_version'))} · generated "
-            f"{_e(report.get('generated'))}</p><h1>{title}</h1></header><nav>{nav}</nav><main>{body}</main>"
+            f"{_e(fmt_time(report.get('generated')))}</p><h1>{title}</h1></header><nav>{nav}</nav><main>{body}</main>"
             "<footer>Self-contained page: every figure is embedded; nothing is fetched from the network. The same "
             "numbers are in report.json, the same text in report.md.</footer></body></html>\n")

@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
-from adapt.reporting.blocks import (Block, Bullets, Details, Figure, Missing, Para, Pre, Section, Sources, Sub,
-                                    Table, Verdict)
+from adapt.reporting.blocks import (Block, Bullets, Details, Figure, KeyFigures, Missing, Para, Pre, Row, Section,
+                                    Sources, Sub, Table, Verdict)
 from adapt.reporting.plots import Plot
+from adapt.reporting.values import fmt_time
 
 LABELS = {"better": "✔", "worse": "✘", "none": "≈", "missing": "?"}
 
@@ -37,11 +38,15 @@ def render_block(b: Block, plots: dict[str, Plot], plot_dir: str) -> list[str]:
         return [f"### {b.title}", ""]
     if isinstance(b, Pre):
         return ["```", b.text, "```", ""]
+    if isinstance(b, Row):
+        return [line for column in b.columns for x in column for line in render_block(x, plots, plot_dir)]
     if isinstance(b, Details):
         inner = [line for x in b.blocks for line in render_block(x, plots, plot_dir)]
         return ["<details><summary>" + b.summary + "</summary>", "", *inner, "</details>", ""]
     if isinstance(b, Verdict):
         return [f"> **{LABELS.get(b.outcome, '')} {b.label}** — {b.sentence}", *[f"> - {x}" for x in b.lines], ""]
+    if isinstance(b, KeyFigures):
+        return _table(["key figure", "value", "what it is"], [[f.label, f.value, f.detail] for f in b.figures])
     if isinstance(b, Sources):
         return _table(["part", "folder", "state", "note"], [list(r) for r in b.rows])
     raise RuntimeError(f"no Markdown for block {type(b).__name__}")
@@ -49,7 +54,7 @@ def render_block(b: Block, plots: dict[str, Plot], plot_dir: str) -> list[str]:
 
 def render_markdown(report: dict, sections: list[Section], plots: dict[str, Plot], plot_dir: str = "plots") -> str:
     out = [f"# {report.get('title') or 'Report'}", "",
-           f"*adapt {report.get('tool_version')} · generated {report.get('generated')}*", ""]
+           f"*adapt {report.get('tool_version')} · generated {fmt_time(report.get('generated'))}*", ""]
     for i, s in enumerate(sections, 1):
         out += [f"## {i}. {s.title}", ""]
         for b in s.blocks:

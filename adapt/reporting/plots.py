@@ -17,7 +17,7 @@ from typing import Any, Callable, Sequence
 
 import matplotlib
 from matplotlib.figure import Figure
-from matplotlib.ticker import MaxNLocator
+from matplotlib.ticker import FuncFormatter, MaxNLocator
 
 from adapt.reporting.values import number
 
@@ -239,11 +239,12 @@ def training_plot(training: dict) -> Plot | None:
     ax.xaxis.set_major_locator(MaxNLocator(integer=True))
     ax.set_ylabel("MLM loss (nats per masked token)")
     ax.set_title("(a) masked-token loss")
-    ax.legend(loc="best")
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(loc="best")
     lr = [(s, v) for s, v in zip(steps, training.get("learning_rate") or []) if v is not None]
     if lr:
         bx.plot(*zip(*lr), color=GREEN, linewidth=1.6, linestyle="-", marker="." if len(lr) < 60 else None)
-        bx.ticklabel_format(axis="y", style="sci", scilimits=(-2, 2))
+        bx.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:.1e}" if v else "0"))
     bx.set_xlabel("optimizer step")
     bx.xaxis.set_major_locator(MaxNLocator(integer=True))
     bx.set_ylabel("learning rate (per step)")
@@ -262,7 +263,7 @@ def warmup_plot(training: dict) -> Plot | None:
     losses = [v for v in warm.get("losses") or [] if v is not None]
     if not losses:
         return None
-    fig, (ax,) = _figure(4.6, 2.6)
+    fig, (ax,) = _figure(4.2, 2.6)
     ax.plot(range(1, len(losses) + 1), losses, color=PURPLE, marker="." if len(losses) < 60 else None,
             linewidth=1.4)
     ax.set_xlabel("head warm-up step (encoder frozen)")
@@ -298,13 +299,13 @@ def pppl_plot(pppl: dict) -> Plot | None:
         ax.set_title(f"{texts} text")
         pair = next((p for p in pppl.get("pairs") or [] if p["texts"] == texts and p.get("comparable")), None)
         if pair:
-            level = f"{100 * pair['level']:.0f}% CI " if pair.get("ci_low") is not None else ""
+            level = f"{100 * pair['confidence']:.0f}% CI " if pair.get("ci_low") is not None else ""
             ax.set_xlabel(f"paired ratio {pair['arm']} / {pair['reference']} = {_ratio_text(pair, level)}")
     axes[0].set_ylabel("pseudo-perplexity per token" + (" (log scale)" if log_scale else ""))
     return _render("pppl", fig, "Pseudo-perplexity: " + "; ".join(
         f"{r['arm']} on {r['texts']} {r['pseudo_perplexity']:,.1f}" for r in rows),
-        "Lower is better. Bars: bootstrap interval over documents of each figure alone. The ratio in the title "
-        "is the paired comparison on the same documents, with its own bootstrap interval.")
+        "Lower is better. Bars: bootstrap interval over documents of each figure alone. The ratio under each "
+        "panel is the paired comparison on the same documents, with its own bootstrap interval.")
 
 
 def _ratio_text(pair: dict, level: str = "") -> str:

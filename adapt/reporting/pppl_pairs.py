@@ -14,6 +14,8 @@ from typing import Any
 
 import numpy as np
 
+from adapt.reporting.values import number
+
 _CHUNK = 256  # resamples drawn at a time, so memory stays at _CHUNK × documents
 
 
@@ -37,7 +39,9 @@ def matched_documents(a: dict, b: dict) -> tuple[np.ndarray, np.ndarray, np.ndar
     pll_a, pll_b, tokens = [], [], []
     for d in a.get("per_document") or []:
         other = by_id.get(str(d.get("id"))) if isinstance(d, dict) else None
-        if other is None or d.get("tokens") != other.get("tokens") or not d.get("tokens"):
+        if other is None or d.get("tokens") != other.get("tokens") or not number(d.get("tokens")):
+            continue
+        if number(d.get("pll")) is None or number(other.get("pll")) is None:
             continue
         pll_a.append(float(d["pll"]))
         pll_b.append(float(other["pll"]))
@@ -51,7 +55,7 @@ def pppl_ratio(pll_a: np.ndarray, pll_b: np.ndarray, tokens: np.ndarray) -> floa
     return math.exp(-(pll_a.sum() - pll_b.sum()) / total)
 
 
-def paired_ratio(a: dict, b: dict, n_resamples: int, level: float, seed: int) -> dict[str, Any]:
+def paired_ratio(a: dict, b: dict, bootstrap_resamples: int, confidence: float, seed: int) -> dict[str, Any]:
     """Ratio of a's to b's pseudo-perplexity on their common documents, with a paired percentile bootstrap CI."""
     why = comparable(a, b)
     if why:
@@ -61,18 +65,19 @@ def paired_ratio(a: dict, b: dict, n_resamples: int, level: float, seed: int) ->
     if n == 0:
         return {"comparable": False, "reason": "the two runs scored no document in common (same id and tokens)"}
     out: dict[str, Any] = {"comparable": True, "ratio": pppl_ratio(pll_a, pll_b, tokens), "n_docs": n,
-                           "n_tokens": int(tokens.sum()), "level": level, "n_resamples": n_resamples,
+                           "n_tokens": int(tokens.sum()), "confidence": confidence,
+                           "bootstrap_resamples": bootstrap_resamples,
                            "ci_low": None, "ci_high": None, "share_ratio_below_1": None}
-    if n_resamples == 0:
+    if bootstrap_resamples == 0:
         return out
     rng = np.random.default_rng(seed)
     diff = pll_a - pll_b  # (n,) per-document PLL gain of a over b, in nats
-    ratios = np.empty(n_resamples)
-    for start in range(0, n_resamples, _CHUNK):
-        size = min(_CHUNK, n_resamples - start)
+    ratios = np.empty(bootstrap_resamples)
+    for start in range(0, bootstrap_resamples, _CHUNK):
+        size = min(_CHUNK, bootstrap_resamples - start)
         idx = rng.integers(0, n, size=(size, n))  # (R, n) documents drawn with replacement
         ratios[start:start + size] = np.exp(-diff[idx].sum(axis=1) / tokens[idx].sum(axis=1))
-    alpha = (1.0 - level) / 2.0
+    alpha = (1.0 - confidence) / 2.0
     out["ci_low"], out["ci_high"] = (float(v) for v in np.quantile(ratios, [alpha, 1.0 - alpha]))
     out["share_ratio_below_1"] = float(np.mean(ratios < 1.0))
     return out

@@ -9,6 +9,7 @@ from typing import TYPE_CHECKING, Any
 
 from adapt.common.cautions import DATA_CAUTION, NOT_ADVICE
 from adapt.config.report import ReportJob
+from adapt.contracts.run_folder import BASE, FINAL
 from adapt.reporting import downstream as ds
 from adapt.reporting.pppl_pairs import paired_ratio
 from adapt.reporting.sources import Source, read_jsonl_file
@@ -34,7 +35,7 @@ def _same(a: Any, b: Path | None) -> bool:
 def _arm_label(encoder: Any, pretrain: Source) -> str:
     """'base' / 'adapted' for the pretrain run's base/ and final/ folders; else the checkpoint folder's name."""
     if pretrain.path is not None:
-        for sub, label in (("base", "base"), ("final", "adapted"), ("best", "best")):
+        for sub, label in ((BASE, "base"), (FINAL, "adapted"), ("best", "best")):
             if _same(encoder, pretrain.path / sub):
                 return label
     name = Path(str(encoder or "?")).name
@@ -63,7 +64,8 @@ def pppl_section(c: "Collected", scores: list[Source], cfg: ReportJob, pretrain:
                         "texts": _text_label(data.get("texts"), data.get("split"), prepared, general),
                         "encoder": data.get("encoder"), "pseudo_perplexity": number(data.get("pseudo_perplexity")),
                         "ci_low": number(dig(data, "ci", "low")), "ci_high": number(dig(data, "ci", "high")),
-                        "level": number(dig(data, "ci", "level")), "n_docs": data.get("n_docs"),
+                        "confidence": number(dig(data, "ci", "confidence")) or number(dig(data, "ci", "level")),
+                        "n_docs": data.get("n_docs"),
                         "total_tokens": data.get("total_tokens"), "variant": data.get("variant"),
                         "precision": data.get("precision"), "untrained_head": data.get("untrained_head"),
                         "tokens_per_second": number(data.get("tokens_per_second")),
@@ -78,7 +80,7 @@ def pppl_section(c: "Collected", scores: list[Source], cfg: ReportJob, pretrain:
             continue
         p = cfg.paired_ci
         pairs.append({"texts": texts, "arm": arm, "reference": REFERENCE_ARM,
-                      **paired_ratio(data, base, p.n_resamples, p.level, p.seed)})
+                      **paired_ratio(data, base, p.bootstrap_resamples, p.confidence, p.seed)})
     return {"rows": rows, "pairs": pairs, "given": bool(scores)}
 
 
@@ -115,7 +117,9 @@ def question(corpus: dict, training: dict, downstream: dict) -> str:
     encoder = training.get("encoder") or "the base encoder"
     domain = dig(corpus, "domain", "domain")
     text = f"{domain} text" if domain and domain != "general" else "the domain corpus"
-    task = Path(str(dig(downstream, "task", "dir"))).name if dig(downstream, "task", "dir") else "the labelled task"
+    labels = dig(downstream, "task", "labels") or []
+    task = (f"the labelled task “{Path(str(dig(downstream, 'task', 'dir'))).name}” ({len(labels)} labels)"
+            if dig(downstream, "task", "dir") else "the labelled task")
     return (f"Did continued masked-language-model pretraining of {encoder} on {text} make it better at "
             f"{task} than the encoder it started from?")
 
@@ -147,10 +151,13 @@ def headline(downstream: dict, pppl: dict) -> dict[str, Any]:
                    ci_high=hi, confidence=conf,
                    sentence=f"{v.get('pair')}: {v.get('outcome') or 'no verdict'}. Test {metric} difference "
                             f"{change}{span}{tail}.",
+                   evidence=f"Test {metric} changed by {change}{span}{tail}.",
                    detail=v.get("text"), cautions=[str(x) for x in v.get("cautions") or []])
+    elif downstream.get("state") == "read":
+        out["sentence"] = (f"No downstream verdict: {downstream.get('path')}/comparison.json holds none (only the "
+                           "reference arm was fine-tuned, or the compare run wrote no verdict).")
     else:
-        out["sentence"] = ("No downstream verdict: " + (downstream.get("note") or "no compare folder was read")
-                           + ".")
+        out["sentence"] = f"No downstream verdict: {downstream.get('note') or downstream.get('state')}."
     domain = next((p for p in pppl.get("pairs", []) if p.get("texts") == "domain" and p.get("comparable")), None)
     if domain:
         out["pppl"] = domain

@@ -3,12 +3,11 @@ the corpus and the training run. ``sections_results`` holds the rest."""
 
 from __future__ import annotations
 
-from typing import Any
-
 from adapt.reporting import sections_results as later
-from adapt.reporting.blocks import (SECTIONS, Block, Bullets, Figure, Missing, Para, Section, Sources, Sub, Table,
-                                    Verdict)
-from adapt.reporting.values import MISSING, dig, fmt, fmt_int, fmt_interval, fmt_seconds, fmt_share, fmt_sig, number
+from adapt.reporting.blocks import (SECTIONS, Block, Bullets, Figure, KeyFigures, Missing, Para, Row, Section,
+                                    Sources, Sub, Table, Verdict)
+from adapt.reporting.glance import key_figures
+from adapt.reporting.values import MISSING, dig, fmt, fmt_int, fmt_seconds, fmt_share, fmt_sig, number
 
 PARTS = {"prepared": "domain corpus (prepare)", "general": "general corpus (prepare)",
          "pretrain": "pretraining run", "score": "pseudo-perplexity (score)", "compare": "downstream (compare)"}
@@ -33,19 +32,14 @@ def verdict_blocks(report: dict) -> list[Block]:
     outcome = str(v.get("outcome") or "")
     kind = ("missing" if not outcome else "better" if outcome.endswith("better")
             else "worse" if outcome.endswith("worse") else "none")
-    lines = []
-    pair = v.get("pppl")
-    if pair:
-        level = f"{100 * pair['level']:.0f}% CI " if pair.get("ci_low") is not None else ""
-        lines.append(f"Pseudo-perplexity on held-out domain text: {pair['arm']} / {pair['reference']} = "
-                     f"{fmt(pair['ratio'], 3)} ({level}{fmt_interval(pair.get('ci_low'), pair.get('ci_high'))}; "
-                     f"paired over {pair['n_docs']:,} documents, {pair['n_tokens']:,} tokens; below 1 = "
-                     f"{pair['arm']} predicts the domain text better).")
-    lines += [f"Caution: {c}" for c in v.get("cautions") or []]
+    label = f"{outcome.upper()} · {v.get('pair')}" if outcome else "NO VERDICT"
     blocks: list[Block] = [Para(report.get("question") or "", "lead"),
-                           Verdict(kind, outcome.upper() if outcome else "NO VERDICT", v.get("sentence") or "",
-                                   lines),
-                           Figure("headline")]
+                           Verdict(kind, label, v.get("evidence") or v.get("sentence") or "",
+                                   [f"Caution: {c}" for c in v.get("cautions") or []])]
+    figures = key_figures(report)
+    if figures:
+        blocks.append(KeyFigures(figures))
+    blocks.append(Figure("headline"))
     if v.get("detail"):
         blocks.append(Para(f"All tests of this pair: {v['detail']}.", "note"))
     rows = [(PARTS.get(s["role"], s["role"]), s.get("path") or MISSING, s["state"], s.get("note") or "")
@@ -78,14 +72,15 @@ def corpus_blocks(report: dict) -> list[Block]:
                         f"), {fmt_int(t.get('docs_removed'))} removed; domain {part.get('domain') or MISSING}, "
                         f"read from {', '.join(map(str, part.get('inputs') or [])) or MISSING}."),
                    Figure("corpus"),
-                   Sub("Documents and words after each step"),
-                   Table(["after step", "documents", "removed by the step", "words"], _funnel_rows(
-                       part.get("funnel") or []),
-                       "Words are whitespace-separated; tokens are counted once, on the kept corpus."),
-                   Sub("Removed documents by reason"),
-                   Table(["reason", "documents"], [[k.replace("_", " "), fmt_int(v)]
-                                                    for k, v in (part.get("removed") or {}).items()])]
-        blocks += _duplicates_and_privacy(part) + _contamination(part) + _vocabulary(part)
+                   Row([[Sub("Documents and words after each step"),
+                         Table(["after step", "documents", "removed by the step", "words"],
+                               _funnel_rows(part.get("funnel") or []),
+                               "Words are whitespace-separated; tokens are counted once, on the kept corpus.")],
+                        [Sub("Removed documents by reason"),
+                         Table(["reason", "documents"], [[k.replace("_", " "), fmt_int(v)]
+                                                          for k, v in (part.get("removed") or {}).items()])]])]
+        blocks += _duplicates_and_privacy(part) + [Row([_personal_data(part), _contamination(part)])]
+        blocks += _vocabulary(part)
         if part.get("warnings"):
             blocks += [Sub("Warnings from the corpus audit"), Bullets(list(part["warnings"]))]
     blocks += _missing(general, "General corpus")
@@ -97,22 +92,24 @@ def corpus_blocks(report: dict) -> list[Block]:
     return blocks
 
 
+def _personal_data(part: dict) -> list[Block]:
+    p = part.get("personal_data") or {}
+    rows = [[kind.replace("_", " "), fmt_int(n)] for kind, n in (p.get("findings") or {}).items()]
+    return [Sub("Personal data found"),
+            Table(["kind", "matches"], rows or [["none found", "0"]],
+                  f"Mode {p.get('mode') or MISSING}: {fmt_int(p.get('docs_with_findings'))} documents had a match, "
+                  f"{fmt_int(p.get('docs_dropped'))} were dropped.")]
+
+
 def _duplicates_and_privacy(part: dict) -> list[Block]:
     d = part.get("duplicates") or {}
-    p = part.get("personal_data") or {}
     q = part.get("quality") or {}
-    findings = p.get("findings") or {}
-    rows = [[kind.replace("_", " "), fmt_int(n)] for kind, n in findings.items()]
-    return [Sub("Duplicates"),
+    return [Sub("Duplicates and quality"),
             Para(f"{fmt_int(d.get('exact_duplicates'))} exact and {fmt_int(d.get('near_duplicates'))} near "
                  f"duplicates among {fmt_int(d.get('docs_checked'))} documents checked: a duplicate share of "
                  f"{fmt_share(d.get('duplicate_share'))} (MinHash over word {d.get('ngram_words') or MISSING}-grams, "
                  f"estimated Jaccard ≥ {d.get('threshold') or MISSING}; Lee et al. 2022 found 3–14% in common "
                  "corpora). One document per cluster was kept."),
-            Sub("Personal data found"),
-            Table(["kind", "matches"], rows or [["none found", "0"]],
-                  f"Mode {p.get('mode') or MISSING}: {fmt_int(p.get('docs_with_findings'))} documents had a match, "
-                  f"{fmt_int(p.get('docs_dropped'))} were dropped."),
             Para(f"Quality filter: {q.get('kind') or MISSING}"
                  + (f", cross-validated accuracy {fmt(q.get('cv_accuracy'))} against a majority baseline of "
                     f"{fmt(q.get('majority_baseline_accuracy'))}" if q.get("cv_accuracy") is not None else "")
@@ -178,20 +175,21 @@ def training_blocks(report: dict) -> list[Block]:
         change = fmt(after - before, 3, signed=True) if before is not None and after is not None else MISSING
         rows.append([key.replace("heldout_loss_", "held-out loss, ").replace("pppl_", "pseudo-perplexity, ")
                      + " text", fmt_sig(before), fmt_sig(after), change])
-    if rows:
-        blocks += [Sub("Held-out figures before and after"),
-                   Table(["figure", "base (step 0)", "adapted (end)", "change"], rows,
-                         "MLM loss in nats per masked token, on a fixed mask drawn once from the seed.")]
-    blocks.append(Sub("MLM head warm-up"))
-    warm = t.get("head_warmup")
-    if warm:
-        losses = [v for v in warm.get("losses") or [] if v is not None]
-        blocks += [Para(f"{fmt_int(warm.get('steps'))} steps with the encoder frozen, loss "
-                        f"{fmt(losses[0] if losses else None)} → {fmt(losses[-1] if losses else None)}; "
-                        + ("levelled off." if warm.get("converged") else
-                           "still falling at the end: the base figures are pessimistic.")),
-                   Figure("head_warmup")]
-    else:
-        blocks.append(Para("No head warm-up ran: the starting checkpoint's MLM head was complete (or the run "
-                           "turned the warm-up off).", "note"))
-    return blocks
+    held: list[Block] = [Sub("Held-out figures before and after")]
+    held.append(Table(["figure", "base (step 0)", "adapted (end)", "change"], rows,
+                      "MLM loss in nats per masked token, on a fixed mask drawn once from the seed.") if rows
+                else Missing("Held-out figures: the run logged none (it stopped before its first evaluation)"))
+    return blocks + [Row([held, _warmup_blocks(t.get("head_warmup"))])]
+
+
+def _warmup_blocks(warm: dict | None) -> list[Block]:
+    blocks: list[Block] = [Sub("MLM head warm-up")]
+    if not warm:
+        return blocks + [Para("No head warm-up ran: the starting checkpoint's MLM head was complete (or the run "
+                              "turned the warm-up off).", "note")]
+    losses = [v for v in warm.get("losses") or [] if v is not None]
+    return blocks + [Para(f"{fmt_int(warm.get('steps'))} steps with the encoder frozen, loss "
+                          f"{fmt(losses[0] if losses else None)} → {fmt(losses[-1] if losses else None)}; "
+                          + ("levelled off." if warm.get("converged") else
+                             "still falling at the end: the base figures are pessimistic.")),
+                     Figure("head_warmup")]

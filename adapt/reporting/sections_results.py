@@ -21,14 +21,16 @@ def pppl_blocks(report: dict) -> list[Block]:
                         "adapt-score>])")]
     blocks: list[Block] = [Missing(f"Score folder {r['path']}: {r.get('note') or r['state']}")
                            for r in rows if r.get("state") != "read"]
-    good = [r for r in rows if r.get("state") == "read"]
+    good = sorted((r for r in rows if r.get("state") == "read"),
+                  key=lambda r: (r["texts"] != "domain", r["texts"] != "general", r["texts"], r["arm"] != "base",
+                                 r["arm"]))
     if not good:
         return blocks
     table = [[r["texts"], r["arm"], fmt_sig(r.get("pseudo_perplexity"), 5),
               fmt_interval(r.get("ci_low"), r.get("ci_high"), 2), fmt_int(r.get("n_docs")),
               fmt_int(r.get("total_tokens")), str(r.get("variant") or MISSING), str(r.get("precision") or MISSING),
               str(r.get("tokenizer_vocab_sha256") or MISSING)[:12]] for r in good]
-    level = next((r["level"] for r in good if r.get("level")), 0.95)
+    level = next((r["confidence"] for r in good if r.get("confidence")), 0.95)
     blocks += [Para("Exact pseudo-perplexity (Salazar et al. 2020): every scored token masked in turn; lower is "
                     "better. Figures are comparable only under the same tokenizer (same vocabulary hash), "
                     "variant and window."),
@@ -55,9 +57,9 @@ def pppl_blocks(report: dict) -> list[Block]:
         blocks.append(Missing("Paired comparison: needs a base and another checkpoint scored on the same text"))
     small = [r for r in good if (number(r.get("n_docs")) or 0) < MIN_DOCS]
     if small:
-        blocks.append(Para(f"Only {', '.join(str(r['n_docs']) for r in small)} document(s) scored in "
-                           f"{len(small)} folder(s): an interval over so few documents says little; raise max_docs "
-                           "or max_tokens of adapt-score.", "note"))
+        blocks.append(Para(f"Few documents scored ({', '.join(str(r['n_docs']) for r in small)} in {len(small)} "
+                           f"folder(s)): an interval over so few documents says little; raise max_docs or max_tokens "
+                           "of adapt-score.", "note"))
     return blocks
 
 
@@ -190,25 +192,37 @@ def provenance_blocks(report: dict) -> list[Block]:
     prov = report.get("provenance") or []
     if not prov:
         return [Missing("Provenance: no output folder was read")]
+    versions = sorted({str(p.get("tool_version")) for p in prov})
     rows = []
     for p in prov:
         prec = p.get("precision") or {}
-        rows.append([p["role"], p["path"], str(p.get("job")), str(p.get("status")), str(p.get("tool_version")),
-                     str(p.get("started") or MISSING), str(p.get("ended") or MISSING), str(p.get("host") or MISSING),
-                     str(p.get("seed")), str(prec.get("chosen") or prec.get("requested") or MISSING),
-                     fmt_int(len(p.get("inputs") or {}))])
+        rows.append([p["role"], p["path"], f"{p.get('job')}, {p.get('status')}", _span(p.get("started"), p.get("ended")),
+                     str(p.get("host") or MISSING), str(p.get("seed")),
+                     str(prec.get("chosen") or prec.get("requested") or MISSING), fmt_int(len(p.get("inputs") or {}))]
+                    + ([str(p.get("tool_version"))] if len(versions) > 1 else []))
     blocks: list[Block] = [
-        Para(f"Report made {report.get('generated')} by adapt {report.get('tool_version')}. Every figure above "
-             "comes from these folders; each folder's manifest records the tool version, the resolved "
-             "configuration and the sha256 of every input file."),
-        Table(["part", "folder", "job", "status", "version", "started", "ended", "host", "seed", "precision",
-               "input files"], rows)]
+        Para(f"Report made {report.get('generated')} by adapt {report.get('tool_version')}; the folders were made by "
+             f"adapt {', '.join(versions)}. Every figure above comes from these folders; each folder's manifest "
+             "records the tool version, the resolved configuration and the sha256 of every input file."),
+        Table(["part", "folder", "job, status", "run (UTC)", "host", "seed", "precision", "input files"]
+              + (["version"] if len(versions) > 1 else []), rows)]
     for p in prov:
         inputs = p.get("inputs") or {}
         blocks.append(Details(f"{p['role']}: {len(inputs)} input file hashes and the resolved configuration", [
             Table(["input file", "sha256"], [[k, v] for k, v in inputs.items()] or [[MISSING, MISSING]]),
             Pre(json.dumps(p.get("config"), indent=2, ensure_ascii=False, default=str))]))
     return blocks
+
+
+def _span(started: Any, ended: Any) -> str:
+    """'2026-12-02 15:47:08 → 15:47:18' (the date again only when the run crossed midnight)."""
+    if not started:
+        return MISSING
+    start = str(started)[:19].replace("T", " ")
+    if not ended:
+        return f"{start} → (no end)"
+    end = str(ended)[:19].replace("T", " ")
+    return f"{start} → {end[11:] if end[:10] == start[:10] else end}"
 
 
 def caution_blocks(report: dict) -> list[Block]:

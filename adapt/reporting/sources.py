@@ -101,9 +101,11 @@ def open_source(role: str, key: str, job: str, value: str | None) -> Source:
         src.state = "read"
     else:
         src.state = "incomplete"
-        src.note = (f"the {job} run did not complete (manifest status {status!r}"
-                    + (f", at step {manifest['step']}" if "step" in manifest else "")
-                    + f"); its figures are left out: finish or rerun {COMMANDS[job]} with out_dir={value}")
+        shown = ("its curves are shown up to there, its end figures left out; resume it with "
+                 f"adapt-pretrain resume=auto out_dir={value}" if job == "pretrain" else
+                 f"its figures are left out; run {COMMANDS[job]} again with out_dir={value}")
+        src.note = (f"the {job} run has not completed (manifest status {status!r}"
+                    + (f", at step {manifest['step']}" if "step" in manifest else "") + f"): {shown}")
     return src
 
 

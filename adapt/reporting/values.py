@@ -74,6 +74,11 @@ def fmt_seconds(value: Any) -> str:
     return f"{v / 3600:.2f} h"
 
 
+def fmt_time(iso: Any) -> str:
+    """'2026-12-02 16:59 UTC' from an ISO time in UTC."""
+    return f"{str(iso)[:16].replace('T', ' ')} UTC" if iso else MISSING
+
+
 def fmt_pm(stat: Any, digits: int = 3) -> str:
     """mean ± sd from a seed summary; the mean alone when there is no spread."""
     mean, sd = number(dig(stat, "mean")), number(dig(stat, "sd"))

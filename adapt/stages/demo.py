@@ -37,6 +37,9 @@ def run(cfg: DemoJob) -> dict:
     _timed(timings, "prepare", prepare.run, cfg.prepare)
     _timed(timings, "prepare_general", prepare.run, cfg.prepare_general)
     trained = _timed(timings, "pretrain", pretrain.run, cfg.pretrain)
+    if not trained["completed"]:  # stopped (a signal): the same command resumes the pretraining
+        folder.finish("stopped", timings_seconds=timings)
+        return trained
     run_dir = Path(cfg.pretrain.out_dir)
     arms = {"base": str(run_dir / "base"), "adapted": str(run_dir / "final")}
 

@@ -1,18 +1,23 @@
 """The continued-pretraining stage: run(cfg) -> result.
 
-Read top to bottom: set up the run folder and resume point, load encoder and data, warm up a missing MLM head and
-measure the base model (fresh runs only), then one loop of optimizer steps with evaluation and checkpoints inline,
-then the final measurements and a plain exported checkpoint.
+Read top to bottom: load the encoder, find the resume point and refuse a checkpoint of other settings (the run
+fingerprint), load the data, warm up a missing MLM head, measure the base model and save step 0 (fresh runs only),
+then one loop of optimizer steps with evaluation and checkpoints inline, then the final measurements and a plain
+exported checkpoint.
+
+SIGINT/SIGTERM are honoured in every phase: the current phase reaches its next safe point, the stage saves what a
+restart needs (nothing before step 0; a checkpoint after it) and returns ``completed: False`` (the CLI exits with
+its "stopped, resumable" code). With several processes the decision to stop is agreed by all ranks every step.
 """
 
 from __future__ import annotations
 
 import contextlib
 import logging
+import os
 import time
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
 
 import torch
 from accelerate import Accelerator, PartialState
@@ -26,23 +31,39 @@ from adapt.common.runtime import PrecisionChoice, announce_precision, apply_thre
 from adapt.common.seeding import step_seed
 from adapt.config.common import optional_str
 from adapt.config.pretrain import PretrainJob
-from adapt.contracts.checkpoint import find_resume_point, load_checkpoint, save_checkpoint
 from adapt.contracts.manifest import RunFolder
-from adapt.contracts.prepared_corpus import read_prepared
-from adapt.contracts.run_folder import MetricsLog
+from adapt.contracts.run_folder import BASE, FINAL, METRICS, MetricsLog, ensure_writable
 from adapt.training.adapters import Adapter, build_adapter, count_trainable
-from adapt.training.encoder import load_mlm, load_tokenizer, unwrap_peft
+from adapt.training.encoder import head_parameter_names, load_mlm, load_tokenizer
 from adapt.training.export import export_checkpoint, measure_pppl, write_model_card
 from adapt.training.head_warmup import warm_up_head
 from adapt.training.mlm_loss import FixedMaskEval, MaskedOnlyMlm, MaskingPlan
 from adapt.training.optimizer import build_adamw
-from adapt.training.packing import BatchCursor, PackedSequences, pack_documents
-from adapt.training.stop_signal import StopSignal
+from adapt.training.packing import BatchCursor, PackedSequences
+from adapt.training.ranks import broadcast_parameters, on_main
+from adapt.training.resume import (Session, Training, open_run, restore_training, save_training, stop_reason,
+                                   stopped_result)
+from adapt.training.stop_signal import StopSignal, agreed_stop
+from adapt.training.token_cache import cache_root, leading_texts, load_packed
 
 log = logging.getLogger(__name__)
 
 
+FSDP_REFUSAL = ("FSDP is not supported by adapt-pretrain: its checkpoints save the whole model from rank 0 and load "
+                "it into every process, which FSDP's sharded parameters do not allow; launch without FSDP "
+                "(torchrun, or accelerate launch without --use_fsdp, run DDP: a full copy of the model per GPU)")
+
+
+def _refuse_fsdp(accelerator: Accelerator | None = None) -> None:
+    from accelerate.utils import DistributedType, str_to_bool
+
+    asked = str_to_bool(os.environ.get("ACCELERATE_USE_FSDP", "false"))  # what accelerate launch --use_fsdp sets
+    if asked or (accelerator is not None and accelerator.distributed_type == DistributedType.FSDP):
+        raise ConfigError(FSDP_REFUSAL)
+
+
 def _accelerator(cfg: PretrainJob) -> tuple[Accelerator, PrecisionChoice]:
+    _refuse_fsdp()
     apply_threads(cfg.runtime)
     cpu = resolve_device(cfg.runtime).type == "cpu"
     state = PartialState(cpu=cpu)  # starts the process group, so that the processes can agree on the precision
@@ -51,7 +72,9 @@ def _accelerator(cfg: PretrainJob) -> tuple[Accelerator, PrecisionChoice]:
         precision = broadcast_object_list([precision])[0]
     if state.is_main_process:
         announce_precision(precision)
-    return Accelerator(cpu=cpu, mixed_precision="bf16" if precision.precision == "bf16" else "no"), precision
+    accelerator = Accelerator(cpu=cpu, mixed_precision="bf16" if precision.precision == "bf16" else "no")
+    _refuse_fsdp(accelerator)
+    return accelerator, precision
 
 
 def _precision(accelerator: Accelerator) -> str:
@@ -61,136 +84,122 @@ def _precision(accelerator: Accelerator) -> str:
 
 @dataclass
 class RunData:
-    """Token ids packed once per process; the fixed-mask held-out sets; the texts for pseudo-perplexity."""
+    """Packed token ids (memory-mapped from the token cache); the fixed-mask held-out sets; the texts for
+    pseudo-perplexity."""
 
     train: PackedSequences
     evals: dict[str, FixedMaskEval]
     pppl_texts: dict[str, list[str]]
 
 
-@dataclass
-class Training:
-    """What the loop changes, and what a checkpoint saves and resume restores."""
-
-    adapter: Adapter
-    loss_module: torch.nn.Module
-    optimizer: torch.optim.Optimizer
-    scheduler: Any
-    cursor: BatchCursor
-    trainable: int
-    total: int
-    step: int = 0
-    tokens_seen: int = 0
-
-
-def _load_split(corpus_dir: str, split: str, tokenizer, cfg: PretrainJob, key: str):
-    docs = read_prepared(corpus_dir, split, columns=None)
-    seqs = pack_documents([d["text"] for d in docs], tokenizer, cfg.encoder.max_seq_len, cfg.runtime.progress)
+def _load_split(corpus_dir: str, split: str, tokenizer, cfg: PretrainJob, key: str) -> PackedSequences:
+    state = PartialState()
+    seqs = load_packed(corpus_dir, split, tokenizer, cfg.encoder.max_seq_len,
+                       cache_root(cfg.out_dir, cfg.data.cache_dir),
+                       progress=cfg.runtime.progress and state.is_main_process, state=state)
     if len(seqs) == 0:
         raise InputError(f"{key}={corpus_dir}: the {split} split has no text to train or evaluate on")
-    return docs, seqs
+    return seqs
 
 
 def _load_data(cfg: PretrainJob, tokenizer, plan: MaskingPlan, num_processes: int) -> RunData:
-    """Read and pack the corpus. Every process packs the whole corpus itself (and again on resume): the cursor
-    then picks each process's share of a batch by index, so no tensors cross processes."""
+    """Pack the corpus through the token cache: tokenised once (by rank 0), then memory-mapped read-only by
+    every process at every start and resume. The cursor picks each process's share of a batch by index, so no
+    tensors cross processes."""
     general_dir = optional_str(cfg.general_dir)
-    _, train = _load_split(cfg.corpus_dir, "train", tokenizer, cfg, "corpus_dir")
-    heldout_docs, heldout = _load_split(cfg.corpus_dir, "heldout", tokenizer, cfg, "corpus_dir")
+    train = _load_split(cfg.corpus_dir, "train", tokenizer, cfg, "corpus_dir")
+    sets = {"domain": (cfg.corpus_dir, _load_split(cfg.corpus_dir, "heldout", tokenizer, cfg, "corpus_dir"))}
     if len(train) < cfg.schedule.batch_size * num_processes:
         raise ConfigError(f"schedule.batch_size={cfg.schedule.batch_size} × {num_processes} process(es) exceeds "
                           f"the {len(train)} packed training sequences in {cfg.corpus_dir}; lower "
                           "schedule.batch_size or add text")
-    sets = {"domain": (heldout_docs, heldout)}
     if general_dir:
-        sets["general"] = _load_split(general_dir, "heldout", tokenizer, cfg, "general_dir")
+        sets["general"] = (general_dir, _load_split(general_dir, "heldout", tokenizer, cfg, "general_dir"))
     # the same seed draws the same fixed mask at every start and resume, so held-out figures stay comparable
     evals = {name: FixedMaskEval(seqs, plan, cfg.seed, cfg.eval.max_heldout_seqs, cfg.schedule.batch_size)
              for name, (_, seqs) in sets.items()}
-    texts = {name: [d["text"] for d in docs] for name, (docs, _) in sets.items()}
+    # pseudo-perplexity scores the first eval.pppl_max_tokens tokens: only those documents are read
+    texts = {name: leading_texts(folder, "heldout", tokenizer, cfg.eval.pppl_max_tokens)
+             for name, (folder, _) in sets.items()}
     return RunData(train, evals, texts)
 
 
-def _warm_up_head(cfg: PretrainJob, model, head_report, data: RunData, plan: MaskingPlan,
-                  accelerator: Accelerator, metrics: MetricsLog) -> None:
+def _warm_up_head(s: Session, model, head_report, data: RunData, plan: MaskingPlan) -> None:
+    """Main process trains the head alone; every process then takes its weights (computed once, broadcast)."""
+    cfg, accelerator = s.cfg, s.accelerator
     warm = cfg.head_warmup
     if not (warm.when == "always" or (warm.when == "auto" and head_report.needs_warmup)):
         return
     if warm.steps == 0 and head_report.needs_warmup:
         log.warning("the MLM head is untrained and head_warmup.steps=0: base figures are meaningless")
-    main = accelerator.is_main_process
-    losses, converged = warm_up_head(
-        model, data.train, plan, steps=warm.steps, learning_rate=warm.learning_rate, batch_size=warm.batch_size,
-        seed=cfg.seed, device=accelerator.device, autocast=accelerator.autocast,
-        progress=cfg.runtime.progress and main, min_improvement=warm.min_improvement, window_steps=warm.window_steps)
-    if not (main and losses):
-        return
-    metrics.write(phase="head_warmup", steps=len(losses), first_loss=losses[0], last_loss=losses[-1],
-                  converged=converged, losses=losses)
-    if not converged and warm.min_improvement > 0:
-        log.warning("the MLM head was still improving after head_warmup.steps=%d (loss %.3f -> %.3f): base figures "
-                    "may be too pessimistic; raise head_warmup.steps", len(losses), losses[0], losses[-1])
+
+    def warm_up() -> None:
+        losses, converged = warm_up_head(
+            model, data.train, plan, steps=warm.steps, learning_rate=warm.learning_rate,
+            batch_size=warm.batch_size, seed=cfg.seed, device=accelerator.device, autocast=accelerator.autocast,
+            progress=cfg.runtime.progress, min_improvement=warm.min_improvement, window_steps=warm.window_steps,
+            should_stop=lambda: s.stop.requested)
+        if not losses or s.stop.requested:  # stopped half way: a restart warms up again from the start
+            return
+        s.metrics.write(phase="head_warmup", steps=len(losses), first_loss=losses[0], last_loss=losses[-1],
+                        converged=converged, losses=losses)
+        if not converged and warm.min_improvement > 0:
+            log.warning("the MLM head was still improving after head_warmup.steps=%d (loss %.3f -> %.3f): base "
+                        "figures may be too pessimistic; raise head_warmup.steps", len(losses), losses[0], losses[-1])
+
+    on_main(accelerator, warm_up)
+    head = set(head_parameter_names(model))
+    broadcast_parameters(accelerator, [p for n, p in model.named_parameters() if n in head])
 
 
-def _measure_base(cfg: PretrainJob, model, tokenizer, data: RunData, accelerator: Accelerator,
-                  metrics: MetricsLog, out: Path) -> None:
-    """The fair "base": the original encoder with the warmed head, nothing else changed; saved as base/."""
-    if not accelerator.is_main_process:
-        return
-    export_checkpoint(model, tokenizer, out / "base")
-    loss_module = MaskedOnlyMlm(model)
-    start = {f"heldout_loss_{k}": e.loss(loss_module, accelerator.device, accelerator.autocast)
-             for k, e in data.evals.items()}
-    start.update(measure_pppl(model, tokenizer, data.pppl_texts, cfg, _precision(accelerator)))
-    metrics.write(phase="start", step=0, **start)
-    log.info("base model: %s", _fmt(start))
+def _measure_base(s: Session, model, tokenizer, data: RunData) -> dict:
+    """The fair "base": the original encoder with the warmed head, nothing else changed; saved as base/.
+    Main process only; returns the size and sha256 of base/'s weights."""
+    accelerator = s.accelerator
+
+    def measure() -> dict:
+        digest = export_checkpoint(model, tokenizer, s.out / BASE)
+        loss_module = MaskedOnlyMlm(model)
+        start = {f"heldout_loss_{k}": e.loss(loss_module, accelerator.device, accelerator.autocast)
+                 for k, e in data.evals.items()}
+        start.update(measure_pppl(model, tokenizer, data.pppl_texts, s.cfg, _precision(accelerator)))
+        s.metrics.write(phase="start", step=0, **start)
+        log.info("base model: %s", _fmt(start))
+        return digest
+
+    return on_main(accelerator, measure)
 
 
-def _set_up_training(cfg: PretrainJob, model, data: RunData, accelerator: Accelerator,
-                     resume_from: Path | None) -> Training:
-    adapter = build_adapter(cfg.adapter.kind)
-    model = adapter.apply(model, cfg.adapter)
+def _set_up_training(s: Session, adapter: Adapter, model, data: RunData, resume_from: str | None,
+                     fingerprint: dict, base_weights: dict | None) -> Training:
+    cfg, accelerator = s.cfg, s.accelerator
+    if resume_from is not None and adapter.needs_base:  # the frozen weights the checkpoint does not hold
+        adapter.load_base(model, Path(resume_from).parent.parent / BASE)
+    with torch.random.fork_rng():  # adapters that initialise weights (LoRA's A) draw from the run's seed
+        torch.manual_seed(step_seed(cfg.seed, 0xADA7))
+        model = adapter.apply(model, cfg.adapter)
     trainable, total = count_trainable(model)
     log.info("adapter %s: %d of %d parameters train (%.2f%%)", cfg.adapter.kind, trainable, total,
              100 * trainable / total)
     loss_module = MaskedOnlyMlm(model).to(accelerator.device)
     optimizer = build_adamw(model, cfg.schedule.learning_rate, cfg.schedule.weight_decay)
-    s = cfg.schedule
-    scheduler = get_scheduler("constant_with_warmup" if s.decay == "constant" else s.decay, optimizer,
-                              num_warmup_steps=s.warmup_steps, num_training_steps=s.max_steps)
-    cursor = BatchCursor(len(data.train), s.batch_size, cfg.seed, accelerator.process_index,
+    sched = cfg.schedule
+    scheduler = get_scheduler("constant_with_warmup" if sched.decay == "constant" else sched.decay, optimizer,
+                              num_warmup_steps=sched.warmup_steps, num_training_steps=sched.max_steps)
+    cursor = BatchCursor(len(data.train), sched.batch_size, cfg.seed, accelerator.process_index,
                          accelerator.num_processes)
-    t = Training(adapter, loss_module, optimizer, scheduler, cursor, trainable, total)
+    t = Training(adapter, loss_module, optimizer, scheduler, cursor, trainable, total, fingerprint,
+                 base_weights=base_weights)
     if resume_from is not None:
-        _restore(t, resume_from)
+        restore_training(t, model, Path(resume_from))
     # wrap for several processes only after the state is restored into the plain modules
     t.loss_module, t.optimizer = accelerator.prepare(t.loss_module, t.optimizer)
     return t
 
 
-def _restore(t: Training, resume_from: Path) -> None:
-    state = load_checkpoint(resume_from, t.loss_module.model, t.optimizer, t.scheduler)
-    try:
-        t.cursor.load_state_dict(state["cursor"])
-    except RuntimeError as exc:
-        raise ConfigError(f"resume from {resume_from}: {exc}; resume with the same settings or start a new "
-                          "out_dir") from exc
-    t.step, t.tokens_seen = state["step"], state["tokens_seen"]
-    log.info("resumed from %s at step %d", resume_from, t.step)
-
-
-def _checkpoint(cfg: PretrainJob, t: Training, accelerator: Accelerator, ckpt_dir: Path) -> None:
-    accelerator.wait_for_everyone()  # sync point: every rank has finished the step being saved
-    if accelerator.is_main_process:
-        model = unwrap_peft(accelerator.unwrap_model(t.loss_module).model)
-        save_checkpoint(ckpt_dir, t.step, model, t.optimizer, t.scheduler,
-                        {"cursor": t.cursor.state_dict(), "tokens_seen": t.tokens_seen, "seed": cfg.seed,
-                         "adapter": cfg.adapter.kind}, cfg.checkpoint.keep_last)
-
-
 def _optimizer_step(cfg: PretrainJob, t: Training, data: RunData, plan: MaskingPlan, accelerator: Accelerator,
                     params: list[torch.nn.Parameter]) -> tuple[float, float | None]:
-    """grad_accum_steps micro-steps, then one optimizer step; returns (loss, gradient norm)."""
+    """grad_accum_steps micro-steps, then one optimizer step; returns (this process's loss, gradient norm)."""
     s, device, rank = cfg.schedule, accelerator.device, accelerator.process_index
     t.loss_module.train()
     step_loss = 0.0
@@ -213,91 +222,119 @@ def _optimizer_step(cfg: PretrainJob, t: Training, data: RunData, plan: MaskingP
     t.scheduler.step()
     t.optimizer.zero_grad(set_to_none=True)
     t.step += 1
-    if accelerator.num_processes > 1:  # sync point: log the mean over processes, not rank 0's share
-        step_loss = float(accelerator.reduce(torch.tensor(step_loss, device=device), "mean"))
     return step_loss, grad_norm
 
 
-def _train(cfg: PretrainJob, t: Training, data: RunData, plan: MaskingPlan, accelerator: Accelerator,
-           metrics: MetricsLog, ckpt_dir: Path) -> None:
-    s, main = cfg.schedule, accelerator.is_main_process
-    stop_at = s.stop_after_steps or s.max_steps
+def _heldout(s: Session, t: Training, data: RunData) -> dict[str, float]:
+    """Fixed-mask held-out losses, computed once on the main process (the unwrapped module: no collectives)."""
+    module = s.accelerator.unwrap_model(t.loss_module)
+    return on_main(s.accelerator, lambda: {f"heldout_loss_{k}": e.loss(module, s.accelerator.device,
+                                                                         s.accelerator.autocast)
+                                           for k, e in data.evals.items()})
+
+
+def _train(s: Session, t: Training, data: RunData, plan: MaskingPlan, tokenizer) -> None:
+    cfg, accelerator = s.cfg, s.accelerator
+    sched = cfg.schedule
+    stop_at = sched.stop_after_steps or sched.max_steps
     params = [p for p in t.loss_module.parameters() if p.requires_grad]
     t0, tokens_t0 = time.perf_counter(), t.tokens_seen
-    bar = tqdm(total=s.max_steps, initial=t.step, desc="pretrain", unit="step",
-               disable=not (cfg.runtime.progress and main))
-    with StopSignal() as stop:
-        while t.step < stop_at and not stop.requested:
-            loss, grad_norm = _optimizer_step(cfg, t, data, plan, accelerator, params)
-            bar.update(1)
-            bar.set_postfix(loss=f"{loss:.3f}")
-            record = {"phase": "train", "step": t.step, "loss": loss,
-                      "learning_rate": t.scheduler.get_last_lr()[0], "grad_norm": grad_norm,
-                      "tokens_seen": t.tokens_seen,
-                      "tokens_per_second": (t.tokens_seen - tokens_t0) / max(time.perf_counter() - t0, 1e-9)}
-            if cfg.eval.every_steps and t.step % cfg.eval.every_steps == 0 and t.step < s.max_steps:
-                record.update({f"heldout_loss_{k}": e.loss(t.loss_module, accelerator.device, accelerator.autocast)
-                               for k, e in data.evals.items()})
-                log.info("step %d: %s", t.step, _fmt(record))
-            if main:
-                metrics.write(**record)
-            every = cfg.checkpoint.save_every_steps
-            if (every and t.step % every == 0) or t.step == stop_at or stop.requested:
-                _checkpoint(cfg, t, accelerator, ckpt_dir)
+    bar = tqdm(total=sched.max_steps, initial=t.step, desc="pretrain", unit="step",
+               disable=not (cfg.runtime.progress and s.main))
+    while t.step < stop_at:
+        loss, grad_norm = _optimizer_step(cfg, t, data, plan, accelerator, params)
+        # sync point: every rank learns whether any was asked to stop, and the mean loss over processes
+        stop_now, (loss,) = agreed_stop(s.stop.requested, accelerator, loss)
+        bar.update(1)
+        bar.set_postfix(loss=f"{loss:.3f}")
+        record = {"phase": "train", "step": t.step, "loss": loss,
+                  "learning_rate": t.scheduler.get_last_lr()[0], "grad_norm": grad_norm,
+                  "tokens_seen": t.tokens_seen,
+                  "tokens_per_second": (t.tokens_seen - tokens_t0) / max(time.perf_counter() - t0, 1e-9)}
+        if cfg.eval.every_steps and t.step % cfg.eval.every_steps == 0 and t.step < sched.max_steps:
+            record.update(_heldout(s, t, data))
+            log.info("step %d: %s", t.step, _fmt(record))
+        if s.main:
+            s.metrics.write(**record)
+        every = cfg.checkpoint.save_every_steps
+        if (every and t.step % every == 0) or t.step == stop_at or stop_now:
+            save_training(s, t, tokenizer)
+        if stop_now:
+            t.stopped_by = stop_reason(s)
+            log.warning("process %d of %d: stopped after step %d (%s)", accelerator.process_index,
+                        accelerator.num_processes, t.step, t.stopped_by)
+            break
     bar.close()
+    if t.stopped_by is None and t.step < sched.max_steps:
+        t.stopped_by = "schedule.stop_after_steps"
 
 
-def _finish(cfg: PretrainJob, t: Training, data: RunData, tokenizer, head_report, accelerator: Accelerator,
-            metrics: MetricsLog, out: Path) -> dict:
-    """Final held-out figures, then final/ (adapters merged) with its model card, and result.json."""
-    main = accelerator.is_main_process
-    end = {f"heldout_loss_{k}": e.loss(t.loss_module, accelerator.device, accelerator.autocast)
-           for k, e in data.evals.items()}
-    final_model = t.adapter.export(accelerator.unwrap_model(t.loss_module).model)
-    end.update(measure_pppl(final_model, tokenizer, data.pppl_texts, cfg, _precision(accelerator)) if main else {})
-    result = {"out_dir": str(out), "step": t.step, "completed": True, "tokens_seen": t.tokens_seen,
+def _finish(s: Session, t: Training, data: RunData, tokenizer, head_report) -> dict | None:
+    """Final held-out figures, then final/ (adapters merged) with its model card, and result.json. None when a
+    stop arrived during the final evaluation: the last checkpoint is complete, a restart finishes from it."""
+    cfg, accelerator = s.cfg, s.accelerator
+    module = accelerator.unwrap_model(t.loss_module)
+    end = _heldout(s, t, data)
+    final_model = t.adapter.export(module.model)
+    end.update(on_main(accelerator, lambda: measure_pppl(final_model, tokenizer, data.pppl_texts, cfg,
+                                                         _precision(accelerator))))
+    if s.stop_agreed():
+        t.stopped_by = stop_reason(s)
+        return None
+    result = {"out_dir": str(s.out), "step": t.step, "completed": True, "tokens_seen": t.tokens_seen,
               "trainable_parameters": t.trainable, "total_parameters": t.total,
-              "head_missing": head_report.missing, "start": _start_figures(metrics), "end": end}
-    if main:
-        metrics.write(phase="end", step=t.step, **end)
-        export_checkpoint(final_model, tokenizer, out / "final")
-        write_model_card(out / "final", cfg, result)
-        atomic_write_json(out / "result.json", result)
+              "head_missing": head_report.missing, "start": _start_figures(s.metrics), "end": end}
+
+    def write() -> None:  # a signal from here on lets the export finish: the run is then complete
+        s.metrics.write(phase="end", step=t.step, **end)
+        export_checkpoint(final_model, tokenizer, s.out / FINAL, extra=lambda f: write_model_card(f, cfg, result))
+        atomic_write_json(s.out / "result.json", result)
+
+    on_main(accelerator, write)
     return result
 
 
 def run(cfg: PretrainJob) -> dict:
     out = Path(cfg.out_dir)
-    ckpt_dir = out / "checkpoints"
-    resume_from = find_resume_point(cfg.resume, ckpt_dir)
-    accelerator, precision = _accelerator(cfg)
-    main = accelerator.is_main_process
-    general_dir = optional_str(cfg.general_dir)
-    run_folder = RunFolder(out, "pretrain", cfg, [cfg.corpus_dir] + ([general_dir] if general_dir else []),
-                           cfg.seed) if main else None
-    metrics = MetricsLog(out / "metrics.jsonl")
+    ensure_writable(out, "out_dir")
+    with StopSignal() as stop:  # from here on SIGINT/SIGTERM stop the run at its next safe point
+        accelerator, precision = _accelerator(cfg)
+        return _run(Session(cfg, accelerator, precision, stop, out, MetricsLog(out / METRICS)))
 
+
+def _run(s: Session) -> dict:
+    cfg, accelerator = s.cfg, s.accelerator
     tokenizer = load_tokenizer(cfg.encoder)
     model, head_report = load_mlm(cfg.encoder)
+    adapter = build_adapter(cfg.adapter.kind)
+    adapter.check(model, cfg.adapter)  # before the corpus is read
+    resume_from, fingerprint = on_main(accelerator, lambda: open_run(s, model, tokenizer, adapter))
+    general_dir = optional_str(cfg.general_dir)
+    run_folder = RunFolder(s.out, "pretrain", cfg, [cfg.corpus_dir] + ([general_dir] if general_dir else []),
+                           cfg.seed) if s.main else None
     m = cfg.masking
     plan = MaskingPlan(tokenizer, m.rate, m.mask_share, m.random_share)
     data = _load_data(cfg, tokenizer, plan, accelerator.num_processes)
     model.to(accelerator.device)
-    if resume_from is None:  # a resumed run measured its base when it started
-        _warm_up_head(cfg, model, head_report, data, plan, accelerator, metrics)
-        _measure_base(cfg, model, tokenizer, data, accelerator, metrics, out)
-
-    t = _set_up_training(cfg, model, data, accelerator, resume_from)
-    _train(cfg, t, data, plan, accelerator, metrics, ckpt_dir)
-    if t.step < cfg.schedule.max_steps:
-        if main:
-            run_folder.finish("stopped", step=t.step, precision=precision.record())
-        return {"out_dir": str(out), "step": t.step, "completed": False,
-                "summary": [f"stopped at step {t.step} of {cfg.schedule.max_steps}; resume with resume=auto "
-                            f"out_dir={out}"]}
-    result = _finish(cfg, t, data, tokenizer, head_report, accelerator, metrics, out)
-    if main:
-        run_folder.finish("completed", step=t.step, precision=precision.record())
+    base_weights = None
+    if resume_from is None:  # a resumed run warmed up and measured its base when it started
+        if s.stop_agreed():  # safe point: after tokenising (nothing to save yet)
+            return stopped_result(s, run_folder, None, stop_reason(s))
+        _warm_up_head(s, model, head_report, data, plan)
+        if s.stop_agreed():  # safe point: after the warm-up (a restart warms up again)
+            return stopped_result(s, run_folder, None, stop_reason(s))
+        base_weights = _measure_base(s, model, tokenizer, data)
+    t = _set_up_training(s, adapter, model, data, resume_from, fingerprint, base_weights)
+    if resume_from is None:
+        save_training(s, t, tokenizer)  # step 0: a restart never repeats the warm-up and the base measurement
+    if s.stop_agreed():  # safe point: before the first step, with a checkpoint to resume from
+        return stopped_result(s, run_folder, t, stop_reason(s))
+    _train(s, t, data, plan, tokenizer)
+    result = _finish(s, t, data, tokenizer, head_report) if t.stopped_by is None else None
+    if result is None:
+        return stopped_result(s, run_folder, t, t.stopped_by)
+    if s.main:
+        run_folder.finish("completed", step=t.step, precision=s.precision.record())
     result["summary"] = _summary(result)
     return result
 

@@ -7,8 +7,6 @@ vocabulary: only compare figures whose hashes match.
 
 from __future__ import annotations
 
-import hashlib
-import json
 import logging
 from pathlib import Path
 
@@ -18,7 +16,7 @@ from transformers import PreTrainedTokenizerBase
 
 from adapt.config.common import PACKAGED_ENCODER
 from adapt.config.score import ScoreJob
-from adapt.training.encoder import HeadReport, load_mlm, load_tokenizer
+from adapt.training.encoder import HeadReport, load_mlm, load_tokenizer, vocab_sha256
 from adapt.common.errors import InputError
 from adapt.evaluation.pppl import DocScores, bootstrap_ci, pseudo_perplexity, score_documents
 from adapt.contracts.manifest import RunFolder
@@ -30,13 +28,6 @@ from adapt.contracts.prepared_corpus import read_texts
 log = logging.getLogger(__name__)
 
 MIN_DOCS_FOR_CI = 10  # below this a bootstrap over documents says little; we still report it, with a warning
-
-
-def vocab_sha256(tokenizer: PreTrainedTokenizerBase) -> str:
-    """sha256 of the tokenizer's vocabulary (token -> id pairs, sorted by id) and its lower-casing rule."""
-    vocab = sorted(tokenizer.get_vocab().items(), key=lambda kv: kv[1])
-    lower = getattr(tokenizer, "do_lower_case", None)
-    return hashlib.sha256(json.dumps([lower, vocab], ensure_ascii=False).encode("utf-8")).hexdigest()
 
 
 def _refuse_untrained_head(cfg: ScoreJob, report: HeadReport) -> None:

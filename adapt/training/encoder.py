@@ -8,6 +8,8 @@ each with ``trust_remote_code`` off unless the caller turns it on.
 
 from __future__ import annotations
 
+import hashlib
+import json
 import logging
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -39,6 +41,13 @@ def open_tokenizer(path: str, trust_remote_code: bool = False, setting: str | No
         return AutoTokenizer.from_pretrained(path, trust_remote_code=trust_remote_code)
     except (OSError, ValueError) as exc:
         raise _unloadable(setting or f"{KEY}={path}", path, exc) from exc
+
+
+def vocab_sha256(tokenizer: PreTrainedTokenizerBase) -> str:
+    """sha256 of the tokenizer's vocabulary (token -> id pairs, sorted by id) and its lower-casing rule."""
+    vocab = sorted(tokenizer.get_vocab().items(), key=lambda kv: kv[1])
+    lower = getattr(tokenizer, "do_lower_case", None)
+    return hashlib.sha256(json.dumps([lower, vocab], ensure_ascii=False).encode("utf-8")).hexdigest()
 
 
 def check_loadable(path: str, trust_remote_code: bool = False, setting: str | None = None) -> None:

@@ -3,24 +3,56 @@ exact pseudo-perplexity figures measured at the start and end of a run."""
 
 from __future__ import annotations
 
+import shutil
 from pathlib import Path
+from typing import Callable
 
 import torch
+from safetensors import SafetensorError
 
-from adapt.common.io import atomic_write_text
+from adapt.common.errors import InputError
+from adapt.common.io import atomic_write_text, fsync_tree, hash_file, replace_folder
 from adapt.config.pretrain import PretrainJob
 
 CAUTION = ("Trained on text that may come from legal or clinical records. De-identify before training, follow the "
            "data-protection law that applies to you and your institution's governance, and check the corpus audit "
            "(profile.md) before sharing this model: it may have memorised rare strings. Its outputs are not legal "
            "or medical advice.")
+WEIGHTS = "model.safetensors"
+ONE_FILE = "1000GB"  # max_shard_size that keeps every weight in one safetensors file
 
 
-def export_checkpoint(model: torch.nn.Module, tokenizer, folder: Path) -> None:
-    """Save a folder that loads with plain ``AutoModelForMaskedLM.from_pretrained`` (safetensors)."""
+def write_model_folder(model: torch.nn.Module, tokenizer, folder: Path) -> None:
+    """Write into ``folder`` what plain ``AutoModelForMaskedLM.from_pretrained`` loads: config, safetensors
+    weights (one file, so that a checkpoint restores from it directly), tokenizer files."""
     folder.mkdir(parents=True, exist_ok=True)
-    model.save_pretrained(folder, safe_serialization=True)
+    model.save_pretrained(folder, safe_serialization=True, max_shard_size=ONE_FILE)
     tokenizer.save_pretrained(folder)
+
+
+def export_checkpoint(model: torch.nn.Module, tokenizer, folder: Path,
+                      extra: Callable[[Path], None] | None = None) -> dict[str, dict]:
+    """Write the model folder ``folder`` (``base/``, ``final/``) atomically: into a temporary folder beside it,
+    fsynced, then renamed over it, so that a kill or a full disk never leaves a half-written one and an earlier
+    complete one stays until the new one is in place. ``extra(tmp)`` adds files (the model card). Returns the size
+    and sha256 of the weights file. A failed write raises ``InputError`` naming the folder."""
+    folder = Path(folder)
+    tmp = folder.with_name(f".incomplete-{folder.name}")
+    shutil.rmtree(tmp, ignore_errors=True)
+    try:
+        write_model_folder(model, tokenizer, tmp)
+        if extra is not None:
+            extra(tmp)
+        weights = tmp / WEIGHTS
+        digest = {"bytes": weights.stat().st_size, "sha256": hash_file(weights)}
+        fsync_tree(tmp)
+        replace_folder(tmp, folder)
+    except (OSError, SafetensorError) as exc:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise InputError(f"{folder} could not be written ({getattr(exc, 'filename', None) or tmp}: "
+                         f"{getattr(exc, 'strerror', None) or exc}); the run's checkpoints are intact: free space "
+                         "or fix the folder, then run the same command again to finish") from exc
+    return digest
 
 
 def measure_pppl(model: torch.nn.Module, tokenizer, texts: dict[str, list[str]], cfg: PretrainJob,

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Callable
+
 import torch
 from tqdm.auto import tqdm
 
@@ -13,11 +15,13 @@ from adapt.training.packing import BatchCursor, PackedSequences
 
 def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPlan, *, steps: int,
                  learning_rate: float, batch_size: int, seed: int, device: torch.device, autocast,
-                 progress: bool, min_improvement: float = 0.0, window_steps: int = 25) -> tuple[list[float], bool]:
+                 progress: bool, min_improvement: float = 0.0, window_steps: int = 25,
+                 should_stop: Callable[[], bool] = lambda: False) -> tuple[list[float], bool]:
     """Train the MLM head alone (encoder frozen, run without gradients); return (losses, converged).
 
     Stops early when the mean loss over the last ``window_steps`` improves on the window before by less than
     ``min_improvement`` (relative); ``converged`` says whether that happened before ``steps`` ran out.
+    ``should_stop()`` true (a stop signal) ends it after the current step.
     """
     head_names = set(head_parameter_names(model))
     frozen = {n: p.requires_grad for n, p in model.named_parameters()}
@@ -32,6 +36,8 @@ def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPla
     converged = False
     bar = tqdm(range(steps), desc="head warm-up", unit="step", disable=not progress)
     for step in bar:
+        if should_stop():
+            break
         idx = cursor.next_indices()
         g = torch.Generator().manual_seed(step_seed(seed, 0x4EAD, step))
         ids, labels = plan.apply(seqs.input_ids[idx], seqs.attention_mask[idx], g)

@@ -1,59 +1,113 @@
-"""Tokenise and pack documents into fixed-length sequences, and walk them in a resumable order.
+"""Pack token ids into fixed-length sequences, hold them (in memory or memory-mapped), and walk them in a
+resumable order.
 
-Packing: documents are tokenised without special tokens, joined with the separator token and cut into chunks of
-``max_seq_len - 2`` tokens, each wrapped as ``[CLS] chunk [SEP]`` (common practice for MLM pretraining; no
-padding is wasted except in the very last sequence).
+Packing rule (version ``PACKING_RULE``): documents are tokenised without special tokens, joined with the separator
+token and cut into chunks of ``max_seq_len - 2`` tokens, each wrapped as ``[CLS] chunk [SEP]`` (common practice
+for MLM pretraining; no padding is wasted except in the very last sequence). The rule streams: it needs only the
+tokens of the current batch of documents and fewer than ``max_seq_len`` carried over from the one before.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
+import numpy as np
 import torch
-from tqdm.auto import tqdm
-from transformers import PreTrainedTokenizerBase
 
 from adapt.common.seeding import step_seed
 
+# Bump when the packing rule changes: token caches written under another rule are then built again.
+PACKING_RULE = 1
 
-@dataclass
+
+class SequencePacker:
+    """The packing rule over a stream of documents: ``add`` token-id lists, get the full sequences so far;
+    ``finish`` returns the padded last one."""
+
+    def __init__(self, max_seq_len: int, cls_id: int, sep_id: int, pad_id: int):
+        self.max_seq_len, self.cls_id, self.sep_id, self.pad_id = max_seq_len, cls_id, sep_id, pad_id
+        self.body = max_seq_len - 2
+        self._carry = np.zeros(0, dtype=np.int64)  # (< body,) tokens not yet in a sequence
+
+    def add(self, docs: list[list[int]]) -> np.ndarray:
+        """(n, T) int64 full sequences completed by these documents (n may be 0)."""
+        stream: list[int] = []
+        for ids in docs:
+            if ids:
+                stream.extend(ids)
+                stream.append(self.sep_id)
+        flat = np.concatenate([self._carry, np.asarray(stream, dtype=np.int64)])
+        n = len(flat) // self.body
+        rows = np.empty((n, self.max_seq_len), dtype=np.int64)
+        rows[:, 0], rows[:, -1] = self.cls_id, self.sep_id
+        rows[:, 1:-1] = flat[:n * self.body].reshape(n, self.body)
+        self._carry = flat[n * self.body:]
+        return rows
+
+    def finish(self) -> tuple[np.ndarray, int]:
+        """((0 or 1, T) int64, real tokens in it): the last, padded sequence if any tokens are left over."""
+        k = len(self._carry)
+        if k == 0:
+            return np.zeros((0, self.max_seq_len), dtype=np.int64), 0
+        row = np.full((1, self.max_seq_len), self.pad_id, dtype=np.int64)
+        row[0, 0], row[0, 1:1 + k], row[0, 1 + k] = self.cls_id, self._carry, self.sep_id
+        self._carry = self._carry[:0]
+        return row, k + 2
+
+
 class PackedSequences:
-    input_ids: torch.Tensor  # (N, T) long
-    attention_mask: torch.Tensor  # (N, T) long; 0 only in the padded tail of the last sequence
-    num_docs: int
+    """N packed sequences of T tokens: a (N, T) array of token ids, in memory or a read-only ``np.memmap`` of
+    uint16/uint32. ``input_ids[rows]`` and ``attention_mask[rows]`` (rows: LongTensor, slice or int) give int64
+    tensors, read from the array on demand. Only the last sequence can be padded: ``last_len`` tokens are real."""
+
+    def __init__(self, tokens: np.ndarray, last_len: int, num_docs: int):
+        if tokens.ndim != 2 or (len(tokens) and not 0 < last_len <= tokens.shape[1]):
+            raise RuntimeError(f"packed sequences of shape {tokens.shape} cannot end with {last_len} real tokens")
+        self.tokens, self.last_len, self.num_docs = tokens, last_len, num_docs
+        self.input_ids = _Rows(self, self._ids)
+        self.attention_mask = _Rows(self, self._mask)
 
     def __len__(self) -> int:
-        return self.input_ids.shape[0]
+        return self.tokens.shape[0]
+
+    @property
+    def max_seq_len(self) -> int:
+        return self.tokens.shape[1]
 
     @property
     def num_tokens(self) -> int:
-        return int(self.attention_mask.sum())
+        return (len(self) - 1) * self.max_seq_len + self.last_len if len(self) else 0
+
+    def _ids(self, rows: np.ndarray) -> torch.Tensor:
+        return torch.from_numpy(self.tokens[rows].astype(np.int64))  # (..., T)
+
+    def _mask(self, rows: np.ndarray) -> torch.Tensor:
+        real = np.where(rows == len(self) - 1, self.last_len, self.max_seq_len)
+        return torch.from_numpy((np.arange(self.max_seq_len) < real[..., None]).astype(np.int64))  # (..., T)
 
 
-def pack_documents(texts: list[str], tokenizer: PreTrainedTokenizerBase, max_seq_len: int,
-                   progress: bool = False, chunk_docs: int = 512) -> PackedSequences:
-    body = max_seq_len - 2
-    stream: list[int] = []
-    for start in tqdm(range(0, len(texts), chunk_docs), desc="tokenise", unit="chunk", disable=not progress):
-        encoded = tokenizer(texts[start:start + chunk_docs], add_special_tokens=False)["input_ids"]
-        for ids in encoded:
-            if ids:
-                stream.extend(ids)
-                stream.append(tokenizer.sep_token_id)
-    if not stream:
-        return PackedSequences(torch.zeros((0, max_seq_len), dtype=torch.long),
-                               torch.zeros((0, max_seq_len), dtype=torch.long), len(texts))
-    n = (len(stream) + body - 1) // body
-    ids = torch.full((n, max_seq_len), tokenizer.pad_token_id, dtype=torch.long)
-    mask = torch.zeros((n, max_seq_len), dtype=torch.long)
-    flat = torch.tensor(stream, dtype=torch.long)
-    for i in range(n):
-        chunk = flat[i * body:(i + 1) * body]
-        ids[i, 0] = tokenizer.cls_token_id
-        ids[i, 1:1 + len(chunk)] = chunk
-        ids[i, 1 + len(chunk)] = tokenizer.sep_token_id
-        mask[i, :2 + len(chunk)] = 1
-    return PackedSequences(ids, mask, len(texts))
+class _Rows:
+    """Indexable like a (N, T) tensor: a LongTensor of rows, a slice or an int."""
+
+    def __init__(self, seqs: PackedSequences, read):
+        self._seqs, self._read = seqs, read
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        return tuple(self._seqs.tokens.shape)
+
+    def __len__(self) -> int:
+        return len(self._seqs)
+
+    def __getitem__(self, index) -> torch.Tensor:
+        n = len(self._seqs)
+        if isinstance(index, slice):
+            return self._read(np.arange(*index.indices(n)))
+        rows = np.asarray(index.cpu() if isinstance(index, torch.Tensor) else index)
+        if rows.dtype.kind not in "iu":
+            raise TypeError(f"packed sequences are indexed by integer rows, not {rows.dtype}")
+        rows = np.where(rows < 0, rows + n, rows)
+        if rows.size and (rows.min() < 0 or rows.max() >= n):
+            raise IndexError(f"row index out of range for {n} packed sequences")
+        return self._read(rows)
 
 
 class BatchCursor:

@@ -47,7 +47,7 @@ def test_compare_without_a_task_asks_for_one(tmp_path):
     proc = subprocess.run([str(exe), "+arms.base=x", f"out_dir={tmp_path / 'o'}"], capture_output=True, text=True,
                           timeout=120)
     lines = [line for line in proc.stderr.splitlines() if line.strip()]
-    assert proc.returncode == 2 and len(lines) == 1 and "TaskConfig" in lines[0] and "dir" in lines[0], proc.stderr
+    assert proc.returncode == 2 and len(lines) == 1 and "task.dir is not set" in lines[0], proc.stderr
     assert not (tmp_path / "o").exists()
 
 

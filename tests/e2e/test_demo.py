@@ -20,10 +20,11 @@ def test_demo_chain_runs_on_the_samples(tmp_path):
     out = tmp_path / "demo"
     for path in ("prepared/profile.json", "prepared_general/profile.json", "pretrain/final/model.safetensors",
                  "score/adapted-domain/scores.json", "score/base-general/scores.json", "compare/comparison.json",
-                 "demo.json", "manifest.json"):
+                 "demo.json", "manifest.json", "report/report.html", "report/report.json"):
         assert (out / path).exists(), path
     text = "\n".join(result["summary"])
     assert "pseudo-perplexity" in text and "verdict" in text and "not legal or medical advice" in text
+    assert result["summary"][-1] == f"report: {(out / 'report' / 'report.html').resolve()}"
     timings = json.loads((out / "demo.json").read_text())["timings_seconds"]
     assert {"prepare", "pretrain", "compare"} <= set(timings)
 

@@ -35,7 +35,16 @@ def tiny_cfg(tmp_path: Path, encoder: Path, out: str, *extra: str):
         write_prepared(corpus)
     return compose_job("pretrain", [f"corpus_dir={corpus}", f"out_dir={tmp_path / out}", "debug=tiny",
                                     f"encoder.name_or_path={encoder}", "encoder.random_init=false",
-                                    "runtime.progress=false", "eval.pppl_max_tokens=0", *extra])
+                                    "runtime.progress=false", "runtime.num_threads=1", "eval.pppl_max_tokens=0",
+                                    *extra])
+
+
+@pytest.fixture(autouse=True)
+def _restore_threads():
+    # run() applies runtime.num_threads=1 (faster for the tiny model) process-wide; give other tests theirs back
+    before = torch.get_num_threads()
+    yield
+    torch.set_num_threads(before)
 
 
 def test_fresh_run_writes_the_contract(tmp_path, tiny_encoder_headless):
@@ -69,21 +78,66 @@ def test_head_warmup_changes_only_the_head(tmp_path, tiny_encoder_headless):
         assert torch.equal(value, base[key]), f"warm-up changed encoder weight {key}"
 
 
-def test_four_steps_equal_two_plus_resume_plus_two(tmp_path, tiny_encoder):
-    # bit-for-bit: weights, optimizer moments and data order are all restored (common practice for resumable runs)
-    run(tiny_cfg(tmp_path, tiny_encoder, "straight", "checkpoint.save_every_steps=4"))
-    first = run(tiny_cfg(tmp_path, tiny_encoder, "resumed", "schedule.stop_after_steps=2"))
-    assert not first["completed"] and first["step"] == 2
-    second = run(tiny_cfg(tmp_path, tiny_encoder, "resumed"))
-    assert second["completed"] and second["step"] == 4
+RESUME_CASES = [("full", 1), ("lora", 2), ("embeddings", 2), ("top_layers", 2)]
+
+
+def _train_records(folder: Path) -> list[dict]:
+    return [r for r in map(json.loads, (folder / "metrics.jsonl").read_text().splitlines()) if r["phase"] == "train"]
+
+
+@pytest.mark.parametrize("kind,accum", RESUME_CASES, ids=[f"{k}-accum{a}" for k, a in RESUME_CASES])
+def test_n_steps_equal_half_plus_resume_plus_half(tmp_path, tiny_encoder, kind, accum):
+    # bit-for-bit: weights, optimizer moments, scheduler, data order and the masking/dropout seeds are all restored
+    # (common practice for resumable runs). 12 steps of 4 x accum sequences run past one epoch of the packed
+    # corpus, and the resume at step 6 lands mid-epoch.
+    common = (f"adapter={kind}", "adapter.num_top_layers=1", f"schedule.grad_accum_steps={accum}",
+              "schedule.max_steps=12", "eval.every_steps=5", "checkpoint.save_every_steps=4")
+    run(tiny_cfg(tmp_path, tiny_encoder, "straight", *common))
+    first = run(tiny_cfg(tmp_path, tiny_encoder, "resumed", *common, "schedule.stop_after_steps=6"))
+    assert not first["completed"] and first["step"] == 6
+    state = json.loads((tmp_path / "resumed" / "checkpoints" / "step-6" / "state.json").read_text())
+    cursor = state["cursor"]
+    assert 0 < cursor["position"] < cursor["num_seqs"], "the resume must land mid-epoch"
+    second = run(tiny_cfg(tmp_path, tiny_encoder, "resumed", *common))
+    assert second["completed"] and second["step"] == 12
     a = load_file(str(tmp_path / "straight" / "final" / "model.safetensors"))
     b = load_file(str(tmp_path / "resumed" / "final" / "model.safetensors"))
     assert a.keys() == b.keys()
     for key in a:
         assert torch.equal(a[key], b[key]), key
-    losses = lambda d: [json.loads(l)["loss"] for l in (tmp_path / d / "metrics.jsonl").read_text().splitlines()
-                        if json.loads(l)["phase"] == "train"]
-    assert losses("straight") == losses("resumed")
+    straight, resumed = _train_records(tmp_path / "straight"), _train_records(tmp_path / "resumed")
+    assert [r["step"] for r in resumed] == list(range(1, 13)), "each step exactly once"
+    assert [r["loss"] for r in straight] == [r["loss"] for r in resumed]
+    assert [r.get("heldout_loss_domain") for r in straight] == [r.get("heldout_loss_domain") for r in resumed]
+    assert second["end"] == run_result(tmp_path / "straight")["end"]
+    last = json.loads((tmp_path / "resumed" / "checkpoints" / "step-12" / "state.json").read_text())
+    assert last["cursor"]["epoch"] > cursor["epoch"], "the resumed half must cross an epoch boundary"
+    _check_checkpoint_is_a_model_folder(tmp_path / "resumed", "step-8", kind)
+
+
+def run_result(folder: Path) -> dict:
+    return json.loads((folder / "result.json").read_text())
+
+
+def _check_checkpoint_is_a_model_folder(out: Path, name: str, kind: str) -> None:
+    """An intermediate checkpoint loads as a plain model (score and compare take it as an arm); a LoRA one also
+    in peft's adapter format on top of the run's base/."""
+    from transformers import AutoModelForMaskedLM, AutoTokenizer
+
+    folder = out / "checkpoints" / name
+    model, info = AutoModelForMaskedLM.from_pretrained(folder, output_loading_info=True)
+    assert not info["missing_keys"] and not info["unexpected_keys"], info
+    AutoTokenizer.from_pretrained(folder)
+    if kind != "lora":
+        return
+    from peft import PeftModel
+
+    adapted = PeftModel.from_pretrained(AutoModelForMaskedLM.from_pretrained(out / "base"), folder / "adapter")
+    ids = torch.tensor([[2, 40, 41, 42, 43, 3]])
+    with torch.no_grad():
+        merged_logits = model.eval()(input_ids=ids).logits
+        adapter_logits = adapted.eval()(input_ids=ids).logits
+    assert torch.allclose(merged_logits, adapter_logits, atol=1e-5)
 
 
 def test_resume_never_refuses_an_existing_run(tmp_path, tiny_encoder):

@@ -50,8 +50,8 @@ def write_pretrain(path: Path, status: str = "completed", steps: int = 6) -> Pat
     log.write(phase="start", step=0, heldout_loss_domain=4.0, heldout_loss_general=4.2)
     done = steps if status == "completed" else steps // 2
     for step in range(1, done + 1):
-        record = {"phase": "train", "step": step, "loss": 4.0 - 0.1 * step, "learning_rate": 1e-4 * (1 - step / steps),
-                  "tokens_seen": 256 * step, "tokens_per_second": 1000.0}
+        record = {"phase": "train", "step": step, "loss": 4.0 - 0.1 * step,
+                  "learning_rate": 1e-4 * (1 - step / steps), "tokens_seen": 256 * step, "tokens_per_second": 1000.0}
         if step % 2 == 0:
             record["heldout_loss_domain"] = 4.0 - 0.05 * step
         log.write(**record)
@@ -79,7 +79,8 @@ def write_score(path: Path, encoder: Path, texts: Path, docs: list[dict], vocab_
     pppl = float(np.exp(-pll / tokens))
     atomic_write_json(path / "scores.json", {
         "encoder": str(encoder), "texts": str(texts), "split": "heldout", "variant": "token",
-        "pseudo_perplexity": pppl, "ci": {"level": 0.95, "low": pppl * 0.9, "high": pppl * 1.1, "n_resamples": 100},
+        "pseudo_perplexity": pppl,
+        "ci": {"confidence": 0.95, "low": pppl * 0.9, "high": pppl * 1.1, "bootstrap_resamples": 100},
         "total_tokens": tokens, "n_docs": len(docs), "tokens_per_second": 50.0, "max_seq_len": 64,
         "precision": "fp32", "tokenizer_vocab_sha256": vocab_hash, "per_document": docs})
     folder.finish()

@@ -66,7 +66,10 @@ def test_checkpoint_files_and_folders_are_fsynced(tmp_path, fsynced):
     model = torch.nn.Linear(3, 2)
     opt = torch.optim.SGD(model.parameters(), lr=0.1)
     sched = torch.optim.lr_scheduler.LambdaLR(opt, lambda step: 1.0)
-    folder = save_checkpoint(tmp_path / "checkpoints", 4, model, opt, sched, {"seed": 0}, keep_last=2)
+    from safetensors.torch import save_model
+
+    folder = save_checkpoint(tmp_path / "checkpoints", 4, lambda f: save_model(model, str(f / "model.safetensors")),
+                             opt, sched, {"seed": 0}, keep_last=2)
     names = {p.name for p in fsynced}
     assert {"model.safetensors", "optimizer.pt", "scheduler.pt", "state.json", "index.json"} <= names
     assert folder.parent in fsynced  # the rename of the finished step folder

@@ -59,7 +59,7 @@ def test_half_finished_runs_are_marked_not_used(tmp_path):
     assert report["training"]["steps"] == [1, 2, 3] and report["training"]["trainable_parameters"] is None
     # a failed compare run's comparison.json (left from an earlier run) is not trusted
     assert report["downstream"]["state"] == "incomplete" and "arms" not in report["downstream"]
-    assert report["verdict"]["outcome"] is None and "did not complete" in report["verdict"]["sentence"]
+    assert report["verdict"]["outcome"] is None and "has not completed" in report["verdict"]["sentence"]
 
 
 def test_missing_parts_are_listed(tmp_path):
@@ -90,7 +90,7 @@ def test_paired_ratio_is_the_ratio_of_the_two_pseudo_perplexities(tmp_path):
     base = {"tokenizer_vocab_sha256": "h", "variant": "token", "max_seq_len": 64,
             "per_document": per_document(30, seed=2, shift=0.0)}
     adapted = {**base, "per_document": per_document(30, seed=3, shift=-0.5)}
-    got = paired_ratio(adapted, base, n_resamples=0, level=0.95, seed=0)
+    got = paired_ratio(adapted, base, bootstrap_resamples=0, confidence=0.95, seed=0)
 
     # Salazar et al. 2020: PPPL = exp(-ΣPLL / ΣT) over the whole set
     def pppl(docs):
@@ -110,7 +110,7 @@ def test_paired_interval_agrees_with_scipy_bootstrap():
     base = {"tokenizer_vocab_sha256": "h", "variant": "token", "max_seq_len": 64, "per_document": docs}
     rng = np.random.default_rng(5)
     adapted = {**base, "per_document": [{**d, "pll": d["pll"] * (0.9 + 0.1 * rng.random())} for d in docs]}
-    ours = paired_ratio(adapted, base, n_resamples=20000, level=0.9, seed=0)
+    ours = paired_ratio(adapted, base, bootstrap_resamples=20000, confidence=0.9, seed=0)
     a = np.array([d["pll"] for d in adapted["per_document"]])
     b = np.array([d["pll"] for d in docs])
     t = np.array([d["tokens"] for d in docs], dtype=float)

@@ -132,3 +132,34 @@ def test_cli_refuses_a_foreign_folder_in_one_line(tmp_path):
     assert proc.returncode == 2 and len(lines) == 1 and "Traceback" not in proc.stderr, proc.stderr
     assert lines[0].startswith("error: compare_dir=") and "not an output folder of this tool" in lines[0]
     assert not (tmp_path / "r" / "report.html").exists()
+
+
+def test_files_without_the_expected_fields_render_with_dashes(tmp_path):
+    """Other versions of the stages may write fewer fields: the report marks them missing instead of failing."""
+    cfg = write_all(tmp_path)
+    for name in ("prepared/profile.json", "general/profile.json", "pretrain/result.json", "compare/comparison.json",
+                 "score/base-domain/scores.json", "score/adapted-domain/scores.json"):
+        (tmp_path / name).write_text("{}", encoding="utf-8")
+    (tmp_path / "pretrain" / "metrics.jsonl").write_text('{"phase": "train"}\n', encoding="utf-8")
+    (tmp_path / "compare" / "predictions.jsonl").write_text('{"index": 0}\n', encoding="utf-8")
+    result = run(cfg)
+    page = _Page()
+    text = Path(result["html"]).read_text(encoding="utf-8")
+    page.feed(text)
+    assert [re.sub(r"^\d+", "", h) for h in page.h2] == [title for _, title in SECTIONS]
+    assert "—" in text and "comparison.json holds none" in text  # read, but it says little
+
+
+def test_key_figures_under_the_verdict_come_from_the_folders(made):
+    from adapt.reporting.glance import key_figures
+
+    root, _, result = made
+    report = read_json(Path(result["json"]))
+    figures = {f.label: f for f in key_figures(report)}
+    pair = next(p for p in report["pppl"]["pairs"] if p["texts"] == "domain")
+    assert figures["pseudo-perplexity, domain"].value == f"× {pair['ratio']:.3f}"
+    assert figures["downstream macro-F1"].value == "+0.130"  # comparison.json's verdict difference
+    assert figures["adaptation cost"].value == "1,536 tokens"  # result.json tokens_seen
+    assert "against the TF-IDF floor" in figures
+    text = Path(result["html"]).read_text(encoding="utf-8")
+    assert text.index('class="verdict') < text.index('class="glance"') < text.index('id="fig-headline"')

@@ -2,12 +2,15 @@
 inputs unchanged; a run stopped before its end exits 75 ("stopped, resumable", EX_TEMPFAIL in sysexits.h) with
 the command that continues it.
 
-The cases run as concurrent subprocesses (each pays the interpreter and library start-up) to keep this fast.
+Each case calls the console script's entry point (``adapt.cli.pretrain_main``, what ``adapt-pretrain`` runs) with its
+command line, in one of two worker interpreters (one per core): the ~10 s interpreter and library start-up is paid
+twice, not once per case. A worker records each case's exit code, stdout and stderr.
 """
 
 from __future__ import annotations
 
 import hashlib
+import json
 import os
 import shutil
 import subprocess
@@ -24,26 +27,35 @@ from adapt.stages.pretrain import run
 from tests.conftest import build_tiny_encoder
 from tests.e2e.test_pretrain import _restore_threads, tiny_cfg, write_prepared  # noqa: F401 (an autouse fixture)
 
-SCRIPT = Path(sys.executable).with_name("adapt-pretrain")
-
-SIGNAL_IN_STEP_3 = textwrap.dedent("""
-    # the console script, with SIGTERM sent while the third optimizer step runs
-    import os, signal, sys
+WORKER = textwrap.dedent("""
+    # run each case of a JSON file through the console script's entry point; write code, stdout, stderr
+    import contextlib, io, json, os, signal, sys
     import adapt.stages.pretrain as stage
-
-    original, calls = stage._optimizer_step, []
-
-    def signalled(*args, **kwargs):  # SIGTERM while the third step runs
-        calls.append(1)
-        if len(calls) == 3:
-            os.kill(os.getpid(), signal.SIGTERM)
-        return original(*args, **kwargs)
-
-    stage._optimizer_step = signalled
     from adapt.cli import pretrain_main
 
-    sys.argv = ["adapt-pretrain", *sys.argv[1:]]
-    pretrain_main()
+    cases_file, results_file = sys.argv[1:3]
+    cases, results = json.load(open(cases_file)), {}
+    original = stage._optimizer_step
+    for name, argv in cases.items():
+        calls = []
+
+        def signalled(*args, **kwargs):  # the "signal" case: SIGTERM while the third optimizer step runs
+            calls.append(1)
+            if len(calls) == 3:
+                os.kill(os.getpid(), signal.SIGTERM)
+            return original(*args, **kwargs)
+
+        stage._optimizer_step = signalled if name == "signal" else original
+        out, err = io.StringIO(), io.StringIO()
+        sys.argv = ["adapt-pretrain", *argv]
+        with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+            try:
+                pretrain_main()
+                code = 0
+            except SystemExit as exc:
+                code = exc.code if isinstance(exc.code, int) else 1
+        results[name] = [code, out.getvalue(), err.getvalue()]
+    json.dump(results, open(results_file, "w"))
 """)
 
 
@@ -52,25 +64,26 @@ def _digest(*folders: Path) -> dict[str, str]:
             for folder in folders for p in sorted(folder.rglob("*")) if p.is_file()}
 
 
-def _read_only(folder: Path, cmd: list[str]) -> list[str] | None:
-    """``cmd`` run with ``folder`` read-only: by its mode for a normal user; root ignores modes, so for root in a
-    private mount namespace where the folder is bind-mounted read-only (None when that is not allowed here)."""
+def _read_only_wrapper(folder: Path) -> list[str] | None:
+    """A command prefix under which ``folder`` is read-only: nothing for a normal user (its mode does it); root
+    ignores modes, so for root a private mount namespace in which the folder is bind-mounted read-only (None when
+    that is not allowed here)."""
     folder.mkdir()
     folder.chmod(0o555)
     if os.geteuid() != 0:
-        return cmd
+        return []
     if shutil.which("unshare") is None or subprocess.run(["unshare", "-m", "true"], capture_output=True).returncode:
         return None
     script = 'mount --bind "$0" "$0" && mount -o remount,bind,ro "$0" && exec "$@"'
-    return ["unshare", "-m", "sh", "-c", script, str(folder), *cmd]
+    return ["unshare", "-m", "sh", "-c", script, str(folder)]
 
 
-def _make_cases(root: Path, encoder: Path, corpus: Path) -> dict[str, list[str] | None]:
-    """name -> the command line (None: cannot be set up on this machine)."""
-    base = [str(SCRIPT), "debug=tiny", f"encoder.name_or_path={encoder}", "encoder.random_init=false",
-            "runtime.progress=false", "eval.pppl_max_tokens=0"]
+def _make_cases(root: Path, encoder: Path, corpus: Path) -> dict[str, list[str]]:
+    """name -> the command line's arguments."""
+    base = ["debug=tiny", f"encoder.name_or_path={encoder}", "encoder.random_init=false", "runtime.progress=false",
+            "eval.pppl_max_tokens=0"]
 
-    def cmd(name: str, *overrides: str, corpus_dir: Path = corpus) -> list[str]:
+    def args(name: str, *overrides: str, corpus_dir: Path = corpus) -> list[str]:
         return [*base, f"corpus_dir={corpus_dir}", f"out_dir={root / ('out_' + name)}", *overrides]
 
     loose = root / "loose_texts"
@@ -81,18 +94,17 @@ def _make_cases(root: Path, encoder: Path, corpus: Path) -> dict[str, list[str] 
                    empty / "train" / "part-00000.parquet")
     not_a_checkpoint = root / "some_folder"
     not_a_checkpoint.mkdir()
-    read_only = root / "read_only"
     return {
-        "not_prepared": cmd("not_prepared", corpus_dir=loose),
-        "empty_train": cmd("empty_train", corpus_dir=empty),
-        "batch_too_large": cmd("batch_too_large", "schedule.batch_size=500"),
-        "unknown_target_modules": cmd("unknown_target_modules", "adapter=lora", "adapter.target_modules=[qkv]"),
-        "lora_rank_too_large": cmd("lora_rank_too_large", "adapter=lora", "adapter.r=64"),
-        "resume_not_a_checkpoint": cmd("resume_not_a_checkpoint", f"resume={not_a_checkpoint}"),
-        "read_only_out_dir": _read_only(read_only, [*base, f"corpus_dir={corpus}", f"out_dir={read_only / 'run'}"]),
-        "changed_masking_rate": cmd("changed_masking_rate", "masking.rate=0.3"),
-        "stopped": cmd("stopped", "schedule.stop_after_steps=2"),
-        "signal": [sys.executable, "-c", SIGNAL_IN_STEP_3, *cmd("signal")[1:]],
+        "not_prepared": args("not_prepared", corpus_dir=loose),
+        "empty_train": args("empty_train", corpus_dir=empty),
+        "batch_too_large": args("batch_too_large", "schedule.batch_size=500"),
+        "unknown_target_modules": args("unknown_target_modules", "adapter=lora", "adapter.target_modules=[qkv]"),
+        "lora_rank_too_large": args("lora_rank_too_large", "adapter=lora", "adapter.r=64"),
+        "resume_not_a_checkpoint": args("resume_not_a_checkpoint", f"resume={not_a_checkpoint}"),
+        "read_only_out_dir": [*base, f"corpus_dir={corpus}", f"out_dir={root / 'read_only' / 'run'}"],
+        "changed_masking_rate": args("changed_masking_rate", "masking.rate=0.3"),
+        "stopped": args("stopped", "schedule.stop_after_steps=2"),
+        "signal": args("signal"),
     }
 
 
@@ -119,12 +131,25 @@ def outcomes(tmp_path_factory):
     cfg = tiny_cfg(root, encoder, "out_changed_masking_rate", f"corpus_dir={corpus}", "schedule.stop_after_steps=2")
     run(cfg)
     cases = _make_cases(root, encoder, corpus)
+    wrapper = _read_only_wrapper(root / "read_only")  # the worker holding that case runs under it
+    if wrapper is None:
+        del cases["read_only_out_dir"]
     before = _digest(encoder, corpus)
     env = dict(os.environ, HF_HUB_OFFLINE="1", TOKENIZERS_PARALLELISM="false", OMP_NUM_THREADS="1")
-    procs = {name: subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env,
-                                    cwd=root)
-             for name, cmd in cases.items() if cmd is not None}
-    results = {name: (p.wait(timeout=600), *p.communicate()) for name, p in procs.items()}
+    names = sorted(cases)
+    workers = []
+    for number, share in enumerate((names[0::2], names[1::2])):
+        (root / f"cases-{number}.json").write_text(json.dumps({name: cases[name] for name in share}))
+        prefix = wrapper if "read_only_out_dir" in share else []
+        cmd = [*prefix, sys.executable, "-c", WORKER, str(root / f"cases-{number}.json"),
+               str(root / f"results-{number}.json")]
+        workers.append(subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env,
+                                        cwd=root))
+    results = {}
+    for number, worker in enumerate(workers):
+        _, stderr = worker.communicate(timeout=900)
+        assert worker.returncode == 0, stderr[-3000:]
+        results.update(json.loads((root / f"results-{number}.json").read_text()))
     return results, before, _digest(encoder, corpus)
 
 

@@ -73,7 +73,7 @@ def collect(cfg: ReportJob) -> tuple[dict[str, Any], list[Path]]:
 
 def corpus_section(c: Collected, src: Source) -> dict[str, Any]:
     """What prepare kept and removed, and why: from ``profile.json``."""
-    out: dict[str, Any] = {"state": src.state, "note": src.note, "path": str(src.path) if src.path else None}
+    out: dict[str, Any] = src.section_head()
     if not src.usable:
         return out
     profile = c.read(src, "profile.json")
@@ -153,7 +153,7 @@ def _last_per_step(records: list[dict], phase: str) -> list[dict]:
 
 def training_section(c: Collected, src: Source) -> dict[str, Any]:
     """Curves and totals of the pretrain run: ``metrics.jsonl``, ``result.json`` and the manifest."""
-    out: dict[str, Any] = {"state": src.state, "note": src.note, "path": str(src.path) if src.path else None}
+    out: dict[str, Any] = src.section_head()
     if src.state not in ("read", "incomplete"):
         return out
     log_path = src.path / METRICS

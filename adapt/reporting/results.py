@@ -55,7 +55,7 @@ def pppl_section(c: "Collected", scores: list[Source], cfg: ReportJob, pretrain:
     """One row per score folder, and per text set the paired ratio of every arm against ``base``."""
     rows, raw = [], {}
     for src in scores:
-        row: dict[str, Any] = {"path": str(src.path) if src.path else None, "state": src.state, "note": src.note}
+        row: dict[str, Any] = src.section_head()
         data = c.read(src, "scores.json") if src.usable else None
         if src.usable and not isinstance(data, dict):
             row.update(state="missing", note=f"{src.path}/scores.json is missing; rerun adapt-score")
@@ -85,7 +85,7 @@ def pppl_section(c: "Collected", scores: list[Source], cfg: ReportJob, pretrain:
 
 
 def downstream_section(c: "Collected", src: Source) -> dict[str, Any]:
-    out: dict[str, Any] = {"state": src.state, "note": src.note, "path": str(src.path) if src.path else None}
+    out: dict[str, Any] = src.section_head()
     if not src.usable:
         return out
     comparison = c.read(src, "comparison.json")

@@ -38,6 +38,10 @@ class Source:
     def usable(self) -> bool:
         return self.state == "read"
 
+    def section_head(self) -> dict[str, Any]:
+        """The state, note and path every report section starts from."""
+        return {"state": self.state, "note": self.note, "path": str(self.path) if self.path else None}
+
     def describe(self) -> dict[str, Any]:
         return {"role": self.role, "key": self.key, "job": self.job, "path": str(self.path) if self.path else None,
                 "state": self.state, "note": self.note, "status": self.manifest.get("status")}

@@ -18,23 +18,22 @@ def now_utc() -> str:
     return _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")
 
 
-def fsync_file(path: Path) -> None:
-    fd = os.open(path, os.O_RDWR)
+def _fsync(path: Path, flags: int) -> None:
+    fd = os.open(path, flags)
     try:
         os.fsync(fd)
     finally:
         os.close(fd)
+
+
+def fsync_file(path: Path) -> None:
+    _fsync(path, os.O_RDWR)
 
 
 def fsync_dir(folder: Path) -> None:
     """Make a rename or a new entry in ``folder`` durable (POSIX; Windows cannot open a folder for this)."""
-    if os.name != "posix":
-        return
-    fd = os.open(folder, os.O_RDONLY)
-    try:
-        os.fsync(fd)
-    finally:
-        os.close(fd)
+    if os.name == "posix":
+        _fsync(folder, os.O_RDONLY)
 
 
 def fsync_tree(folder: Path) -> None:

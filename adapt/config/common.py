@@ -34,6 +34,12 @@ class MaskingConfig:
     # the rest stay unchanged (BERT: 0.8 / 0.1 / 0.1).
     mask_share: float = 0.8
     random_share: float = 0.1
+    # What is selected: "token" (each token on its own) or "word" (all pieces of a word or none, from the fast
+    # tokenizer's word ids; the whole-word-masking release of the original BERT code). Same rate and split.
+    unit: str = "token"
+
+
+MASKING_UNITS = ("token", "word")
 
 
 @dataclass
@@ -64,6 +70,8 @@ def validate_masking(cfg: MaskingConfig, prefix: str, p: Problems) -> None:
     p.check(cfg.mask_share + cfg.random_share <= 1.0 + 1e-9,
             f"{prefix}.mask_share + {prefix}.random_share = {cfg.mask_share + cfg.random_share} exceeds 1; "
             f"try mask_share=0.8 random_share=0.1")
+    p.check(cfg.unit in MASKING_UNITS,
+            f"{prefix}.unit={cfg.unit!r} is not one of {', '.join(MASKING_UNITS)}; try {prefix}.unit=token")
 
 
 def validate_runtime(cfg: RuntimeConfig, prefix: str, p: Problems) -> None:

@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Optional
 
-from adapt.config.common import (EncoderConfig, MaskingConfig, RuntimeConfig, validate_encoder,
+from adapt.config.common import (EncoderConfig, MaskingConfig, RuntimeConfig, optional_str, validate_encoder,
                                  validate_masking, validate_runtime)
 from adapt.common.errors import Problems
 
@@ -77,11 +77,33 @@ class EvalConfig:
 
 
 @dataclass
+class EarlyStopConfig:
+    # Stop once this many held-out evaluations in a row (every eval.every_steps steps) bring the domain held-out
+    # loss no lower than the best so far minus min_improvement; the run is then complete (final/ and best/ are
+    # written). null = off: the run goes to schedule.max_steps, as a fixed schedule should unless asked otherwise.
+    patience: Optional[int] = None
+    # Smallest fall of the domain held-out loss (nats, absolute) that counts as an improvement and makes that
+    # step the best one (0 = any fall).
+    min_improvement: float = 0.0
+
+
+@dataclass
 class CheckpointConfig:
     # Save the full training state every N steps (0 = only at the end or on interruption).
     save_every_steps: int = 100
-    # Keep the newest N checkpoints.
+    # Keep the newest N checkpoints (the best one is kept besides them while it is tracked).
     keep_last: int = 2
+    # Track the best step (lowest domain held-out loss at the evaluations), keep its checkpoint out of rotation
+    # and export it as best/. Always on while early_stop.patience is set; needs eval.every_steps > 0.
+    keep_best: bool = False
+
+
+@dataclass
+class CardConfig:
+    # Licence of the trained weights written into the model cards' front-matter (an SPDX id such as apache-2.0,
+    # or "other"); it must allow what the starting encoder's and the corpus's licences allow. null = "unknown",
+    # with a note to set it before sharing.
+    license: Optional[str] = None
 
 
 @dataclass
@@ -89,6 +111,26 @@ class DataConfig:
     # Folder for the token cache (each split tokenised and packed once, memory-mapped by every process and on
     # every resume); shareable between runs on the same corpus. null = <out_dir>/token_cache.
     cache_dir: Optional[str] = None
+    # Order of the training sequences in each epoch: shuffled; quality_desc (highest prepare quality score first,
+    # shuffled within windows of window_batches global batches); quality_weighted (drawn with replacement, weight
+    # max(score, quality_floor)). The quality orders need the quality column adapt-prepare writes.
+    order: str = "shuffled"
+    window_batches: int = 8
+    # quality_weighted: the smallest draw weight (scores are in [0, 1]), so low-scored text is still seen.
+    quality_floor: float = 0.1
+
+
+DATA_ORDERS = ("shuffled", "quality_desc", "quality_weighted")
+
+
+@dataclass
+class ReplayConfig:
+    # Share of every batch drawn from general_dir's train split (its own shuffled, resumable order) to limit
+    # forgetting; Ibrahim et al. 2024 use a few percent up to 25%. 0 = off.
+    share: float = 0.0
+
+
+MAX_REPLAY_SHARE = 0.5
 
 
 @dataclass
@@ -103,6 +145,7 @@ class PretrainJob:
     # or a path to a checkpoint folder.
     resume: str = "auto"
     data: DataConfig = field(default_factory=DataConfig)
+    replay: ReplayConfig = field(default_factory=ReplayConfig)
     encoder: EncoderConfig = field(default_factory=EncoderConfig)
     masking: MaskingConfig = field(default_factory=MaskingConfig)
     schedule: ScheduleConfig = field(default_factory=ScheduleConfig)
@@ -110,6 +153,8 @@ class PretrainJob:
     adapter: AdapterConfig = field(default_factory=AdapterConfig)
     eval: EvalConfig = field(default_factory=EvalConfig)
     checkpoint: CheckpointConfig = field(default_factory=CheckpointConfig)
+    early_stop: EarlyStopConfig = field(default_factory=EarlyStopConfig)
+    card: CardConfig = field(default_factory=CardConfig)
     runtime: RuntimeConfig = field(default_factory=RuntimeConfig)
 
 
@@ -120,7 +165,7 @@ class PretrainJob:
 RESUME_SAFE_KEYS = (
     "out_dir", "resume", "corpus_dir", "general_dir", "encoder.name_or_path", "encoder.trust_remote_code",
     "data.cache_dir", "schedule.stop_after_steps", "eval.every_steps", "eval.pppl_batch_size",
-    "checkpoint.save_every_steps", "checkpoint.keep_last",
+    "checkpoint.save_every_steps", "checkpoint.keep_last", "card.license",
     "runtime.device", "runtime.precision", "runtime.num_threads", "runtime.progress",
 )
 
@@ -163,4 +208,31 @@ def validate(cfg: PretrainJob, p: Problems, prefix: str = "") -> None:
     c = cfg.checkpoint
     p.check(c.save_every_steps >= 0, f"{k}checkpoint.save_every_steps={c.save_every_steps} must be >= 0")
     p.check(c.keep_last >= 1, f"{k}checkpoint.keep_last={c.keep_last} must be >= 1")
+    es = cfg.early_stop
+    p.check(es.patience is None or es.patience >= 1,
+            f"{k}early_stop.patience={es.patience} must be >= 1 (evaluations) or null (off); try 3")
+    p.check(es.min_improvement >= 0,
+            f"{k}early_stop.min_improvement={es.min_improvement} must be >= 0 (nats); try 0.01")
+    p.check(not tracks_best(cfg) or e.every_steps >= 1,
+            f"{k}early_stop.patience / {k}checkpoint.keep_best need held-out evaluations during the run, but "
+            f"{k}eval.every_steps=0; set {k}eval.every_steps=50 (or another step count)")
+    p.check(cfg.card.license is None or (isinstance(cfg.card.license, str) and cfg.card.license.strip() != ""
+                                         and "\n" not in cfg.card.license),
+            f"{k}card.license={cfg.card.license!r} must be one line (an SPDX id such as apache-2.0) or null")
     p.check(cfg.resume not in ("",), f"{k}resume is empty; use auto, never or a checkpoint folder")
+    d = cfg.data
+    p.check(d.order in DATA_ORDERS, f"{k}data.order={d.order!r} is not one of {', '.join(DATA_ORDERS)}; "
+            f"try {k}data.order=shuffled")
+    p.check(d.window_batches >= 1, f"{k}data.window_batches={d.window_batches} must be >= 1; try 8")
+    p.check(0 < d.quality_floor <= 1, f"{k}data.quality_floor={d.quality_floor} is outside (0, 1]; try 0.1")
+    r = cfg.replay
+    p.check(0 <= r.share <= MAX_REPLAY_SHARE,
+            f"{k}replay.share={r.share} is outside [0, {MAX_REPLAY_SHARE}]; try {k}replay.share=0.1")
+    p.check(r.share == 0 or optional_str(cfg.general_dir) is not None,
+            f"{k}replay.share={r.share} needs {k}general_dir (a prepared general-text corpus to replay); "
+            f"set {k}general_dir=<prepared folder> or {k}replay.share=0")
+
+
+def tracks_best(cfg: PretrainJob) -> bool:
+    """Whether the run keeps its best step (checkpoint out of rotation, best/ exported)."""
+    return cfg.early_stop.patience is not None or cfg.checkpoint.keep_best

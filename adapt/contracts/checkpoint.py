@@ -33,9 +33,11 @@ TEMP_PREFIXES = (".incomplete-", ".replaced-")  # what a save killed half way le
 
 
 def save_checkpoint(root: Path, step: int, write_weights: Callable[[Path], None], optimizer: torch.optim.Optimizer,
-                    scheduler: Any, state: dict, keep_last: int, linked_files: dict | None = None) -> Path:
+                    scheduler: Any, state: dict, keep_last: int, linked_files: dict | None = None,
+                    best_step: int | None = None) -> Path:
     """Write ``root/step-<step>`` (``write_weights(folder)`` writes the model files), index it, prune to the newest
-    ``keep_last`` checkpoints up to this step. ``linked_files`` (path relative to the checkpoint -> size and hash)
+    ``keep_last`` checkpoints up to this step plus the one of ``best_step`` (the run's best step, never pruned;
+    the index names it under ``best``). ``linked_files`` (path relative to the checkpoint -> size and hash)
     are files outside the folder that resuming it needs (a LoRA run's ``base/`` weights). A write that fails (a full
     disk) removes the half-written folder and raises ``InputError``; earlier checkpoints stay as they were."""
     root.mkdir(parents=True, exist_ok=True)
@@ -52,8 +54,13 @@ def save_checkpoint(root: Path, step: int, write_weights: Callable[[Path], None]
         atomic_write_json(tmp / STATE, {**state, "step": step, "files": files})
         fsync_tree(tmp)
         replace_folder(tmp, final)
-        kept = sorted([(s, f) for s, f in _saved_steps(root) if s < step] + [(step, final)])[-keep_last:]
-        atomic_write_json(root / INDEX, {"checkpoints": [{"step": s, "folder": f.name} for s, f in kept]})
+        saved = sorted([(s, f) for s, f in _saved_steps(root) if s < step] + [(step, final)])
+        best = next(((s, f) for s, f in saved if s == best_step), None)
+        kept = sorted(set(saved[-keep_last:]) | ({best} if best else set()))
+        index = {"checkpoints": [{"step": s, "folder": f.name} for s, f in kept]}
+        if best:
+            index["best"] = {"step": best[0], "folder": best[1].name}
+        atomic_write_json(root / INDEX, index)
     except (OSError, SafetensorError) as exc:
         shutil.rmtree(tmp, ignore_errors=True)
         where = getattr(exc, "filename", None) or tmp
@@ -162,6 +169,16 @@ def _explicit(resume: str) -> Path:
         raise InputError(f"resume={resume}: the checkpoint is damaged ({problem}); choose another "
                          "checkpoints/step-N folder or resume=auto")
     return path
+
+
+def best_checkpoint(root: Path) -> Path | None:
+    """The checkpoint the index names as the run's best (kept out of rotation), or None."""
+    try:
+        entry = read_json(root / INDEX)["best"]
+    except (OSError, ValueError, KeyError, TypeError):
+        return None
+    folder = root / entry["folder"]
+    return folder if (folder / STATE).is_file() else None
 
 
 def read_state(path: Path) -> dict:

@@ -95,6 +95,24 @@ def iter_text_batches(shards: list[Path], batch_rows: int) -> Iterator[list[str]
             yield [t if t is not None else "" for t in batch.column(0).to_pylist()]
 
 
+def iter_scored_batches(shards: list[Path], batch_rows: int) -> Iterator[tuple[list[str], list[float | None]]]:
+    """Like ``iter_text_batches``, with each document's ``quality`` beside its text (None where a shard has no
+    quality column or a row no score)."""
+    for shard in shards:
+        try:
+            reader = pq.ParquetFile(shard)
+        except (pa.ArrowException, OSError) as exc:
+            raise InputError(f"{shard}: not a readable Parquet file ({exc}); run the prepare job again") from exc
+        names = reader.schema_arrow.names
+        if "text" not in names:
+            raise InputError(f"{shard}: no 'text' column; it was not written by the prepare job")
+        columns = ["text"] + (["quality"] if "quality" in names else [])
+        for batch in reader.iter_batches(batch_size=batch_rows, columns=columns):
+            texts = [t if t is not None else "" for t in batch.column(0).to_pylist()]
+            scores = batch.column(1).to_pylist() if len(columns) == 2 else [None] * len(texts)
+            yield texts, scores
+
+
 def count_rows(shards: list[Path]) -> int:
     """Documents in the shards, from the Parquet footers (nothing else is read)."""
     return sum(pq.ParquetFile(shard).metadata.num_rows for shard in shards)

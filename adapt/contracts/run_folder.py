@@ -12,7 +12,7 @@ import logging
 import os
 import tempfile
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 from adapt.common.errors import InputError
 from adapt.common.io import atomic_write_text, fsync_file, now_utc, to_jsonable
@@ -20,14 +20,16 @@ from adapt.common.io import atomic_write_text, fsync_file, now_utc, to_jsonable
 log = logging.getLogger(__name__)
 
 METRICS = "metrics.jsonl"
-BASE, FINAL, CHECKPOINTS = "base", "final", "checkpoints"
+BASE, FINAL, BEST, CHECKPOINTS = "base", "final", "best", "checkpoints"
 
 
 class MetricsLog:
-    """Append-only ``metrics.jsonl``: one JSON object per line, flushed at once."""
+    """Append-only ``metrics.jsonl``: one JSON object per line, flushed at once. ``mirror(record)``, when set,
+    also receives every record (the TensorBoard event files)."""
 
-    def __init__(self, path: Path | str):
+    def __init__(self, path: Path | str, mirror: Callable[[dict[str, Any]], None] | None = None):
         self.path = Path(path)
+        self.mirror = mirror
 
     def write(self, **record: Any) -> None:
         record = {"time": now_utc(), **to_jsonable(record)}
@@ -35,6 +37,8 @@ class MetricsLog:
         with open(self.path, "a", encoding="utf-8") as fh:
             fh.write(json.dumps(record, ensure_ascii=False) + "\n")
             fh.flush()
+        if self.mirror is not None:
+            self.mirror(record)
 
     def sync(self) -> None:
         """Make every line written so far durable (called before a checkpoint names the step)."""

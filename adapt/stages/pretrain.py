@@ -14,13 +14,16 @@ from __future__ import annotations
 
 import contextlib
 import logging
+import math
 import os
 import time
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
 import torch
 from accelerate import Accelerator, PartialState
+from accelerate.state import AcceleratorState
 from accelerate.utils import broadcast_object_list
 from tqdm.auto import tqdm
 from transformers import get_scheduler
@@ -30,23 +33,29 @@ from adapt.common.io import atomic_write_json
 from adapt.common.runtime import PrecisionChoice, announce_precision, apply_threads, resolve_device, resolve_precision
 from adapt.common.seeding import step_seed
 from adapt.config.common import optional_str
-from adapt.config.pretrain import PretrainJob
+from adapt.config.pretrain import PretrainJob, tracks_best
 from adapt.contracts.manifest import RunFolder
-from adapt.contracts.run_folder import BASE, FINAL, METRICS, MetricsLog, ensure_writable
+from adapt.contracts.checkpoint import best_checkpoint, read_state
+from adapt.contracts.run_folder import BASE, BEST, CHECKPOINTS, FINAL, METRICS, MetricsLog, ensure_writable
 from adapt.training.adapters import Adapter, build_adapter, count_trainable
 from adapt.training.encoder import head_parameter_names, load_mlm, load_tokenizer
-from adapt.training.export import export_checkpoint, measure_pppl, write_model_card
+from adapt.training.early_stop import LOSS_KEY, judge, patience_spent
+from adapt.training.export import export_checkpoint, export_saved, measure_pppl
+from adapt.training.model_card import write_model_card
 from adapt.training.head_warmup import warm_up_head
 from adapt.training.mlm_loss import FixedMaskEval, MaskedOnlyMlm, MaskingPlan
 from adapt.training.optimizer import build_adamw
-from adapt.training.packing import BatchCursor, PackedSequences
+from adapt.training.packing import BatchCursor, PackedSequences, replay_rows
 from adapt.training.ranks import broadcast_parameters, on_main
 from adapt.training.resume import (Session, Training, open_run, restore_training, save_training, stop_reason,
                                    stopped_result)
 from adapt.training.stop_signal import StopSignal, agreed_stop
+from adapt.training.tensorboard_log import TENSORBOARD, tensorboard_mirror
 from adapt.training.token_cache import cache_root, leading_texts, load_packed
 
 log = logging.getLogger(__name__)
+
+EARLY_STOP = "early_stop"  # stopped_by of a run its early stop ended: complete, final/ and best/ written
 
 
 FSDP_REFUSAL = ("FSDP is not supported by adapt-pretrain: its checkpoints save the whole model from rank 0 and load "
@@ -72,6 +81,9 @@ def _accelerator(cfg: PretrainJob) -> tuple[Accelerator, PrecisionChoice]:
         precision = broadcast_object_list([precision])[0]
     if state.is_main_process:
         announce_precision(precision)
+    # accelerate keeps one AcceleratorState per process and refuses another mixed_precision in a second job of the
+    # same interpreter; the process group (PartialState) is kept
+    AcceleratorState._reset_state()
     accelerator = Accelerator(cpu=cpu, mixed_precision="bf16" if precision.precision == "bf16" else "no")
     _refuse_fsdp(accelerator)
     return accelerator, precision
@@ -85,11 +97,12 @@ def _precision(accelerator: Accelerator) -> str:
 @dataclass
 class RunData:
     """Packed token ids (memory-mapped from the token cache); the fixed-mask held-out sets; the texts for
-    pseudo-perplexity."""
+    pseudo-perplexity; the general-text train split replay draws from (None: replay.share=0)."""
 
     train: PackedSequences
     evals: dict[str, FixedMaskEval]
     pppl_texts: dict[str, list[str]]
+    replay: PackedSequences | None = None
 
 
 def _load_split(corpus_dir: str, split: str, tokenizer, cfg: PretrainJob, key: str) -> PackedSequences:
@@ -107,21 +120,47 @@ def _load_data(cfg: PretrainJob, tokenizer, plan: MaskingPlan, num_processes: in
     every process at every start and resume. The cursor picks each process's share of a batch by index, so no
     tensors cross processes."""
     general_dir = optional_str(cfg.general_dir)
+    if cfg.masking.unit == "word" and not getattr(tokenizer, "is_fast", False):
+        raise ConfigError(f"masking.unit=word needs a fast tokenizer (its word ids mark the words); "
+                          f"{tokenizer.name_or_path} has a slow one: use masking.unit=token or a fast tokenizer")
     train = _load_split(cfg.corpus_dir, "train", tokenizer, cfg, "corpus_dir")
     sets = {"domain": (cfg.corpus_dir, _load_split(cfg.corpus_dir, "heldout", tokenizer, cfg, "corpus_dir"))}
     if len(train) < cfg.schedule.batch_size * num_processes:
         raise ConfigError(f"schedule.batch_size={cfg.schedule.batch_size} × {num_processes} process(es) exceeds "
                           f"the {len(train)} packed training sequences in {cfg.corpus_dir}; lower "
                           "schedule.batch_size or add text")
+    if cfg.data.order != "shuffled" and not np.isfinite(train.quality).all():
+        raise InputError(f"corpus_dir={cfg.corpus_dir}: data.order={cfg.data.order} needs the quality score of "
+                         "every train document, and some have none; run adapt-prepare on it or use "
+                         "data.order=shuffled")
+    replay = None
     if general_dir:
         sets["general"] = (general_dir, _load_split(general_dir, "heldout", tokenizer, cfg, "general_dir"))
+        if cfg.replay.share > 0:
+            replay = _load_split(general_dir, "train", tokenizer, cfg, "general_dir")
+            most = math.ceil(cfg.replay.share * cfg.schedule.batch_size) * num_processes
+            if len(replay) < most:
+                raise ConfigError(f"replay.share={cfg.replay.share} takes up to {most} sequences a batch, more than "
+                                  f"the {len(replay)} in general_dir={general_dir}'s train split; add text or lower "
+                                  "replay.share")
     # the same seed draws the same fixed mask at every start and resume, so held-out figures stay comparable
     evals = {name: FixedMaskEval(seqs, plan, cfg.seed, cfg.eval.max_heldout_seqs, cfg.schedule.batch_size)
              for name, (_, seqs) in sets.items()}
     # pseudo-perplexity scores the first eval.pppl_max_tokens tokens: only those documents are read
     texts = {name: leading_texts(folder, "heldout", tokenizer, cfg.eval.pppl_max_tokens)
              for name, (folder, _) in sets.items()}
-    return RunData(train, evals, texts)
+    return RunData(train, evals, texts, replay)
+
+
+def _cursors(cfg: PretrainJob, data: RunData, rank: int, world_size: int) -> tuple[BatchCursor, BatchCursor | None]:
+    """The domain order (data.order) and, with replay on, the general text's own shuffled order."""
+    d, batch_size = cfg.data, cfg.schedule.batch_size
+    cursor = BatchCursor(len(data.train), batch_size, cfg.seed, rank, world_size, order=d.order,
+                         quality=data.train.quality, window_batches=d.window_batches, quality_floor=d.quality_floor)
+    if data.replay is None:
+        return cursor, None
+    most = math.ceil(cfg.replay.share * batch_size)  # rows a batch takes from it at most
+    return cursor, BatchCursor(len(data.replay), most, cfg.seed, rank, world_size, salt=0x4E91A)
 
 
 def _warm_up_head(s: Session, model, head_report, data: RunData, plan: MaskingPlan) -> None:
@@ -186,10 +225,9 @@ def _set_up_training(s: Session, adapter: Adapter, model, data: RunData, resume_
     sched = cfg.schedule
     scheduler = get_scheduler("constant_with_warmup" if sched.decay == "constant" else sched.decay, optimizer,
                               num_warmup_steps=sched.warmup_steps, num_training_steps=sched.max_steps)
-    cursor = BatchCursor(len(data.train), sched.batch_size, cfg.seed, accelerator.process_index,
-                         accelerator.num_processes)
+    cursor, replay_cursor = _cursors(cfg, data, accelerator.process_index, accelerator.num_processes)
     t = Training(adapter, loss_module, optimizer, scheduler, cursor, trainable, total, fingerprint,
-                 base_weights=base_weights)
+                 base_weights=base_weights, replay_cursor=replay_cursor)
     if resume_from is not None:
         restore_training(t, model, Path(resume_from))
     # wrap for several processes only after the state is restored into the plain modules
@@ -204,10 +242,9 @@ def _optimizer_step(cfg: PretrainJob, t: Training, data: RunData, plan: MaskingP
     t.loss_module.train()
     step_loss = 0.0
     for micro in range(s.grad_accum_steps):
-        idx = t.cursor.next_indices()
-        ids, mask = data.train.input_ids[idx], data.train.attention_mask[idx]  # (B, T) this process's share
+        ids, mask, starts = _micro_batch(cfg, t, data, t.step * s.grad_accum_steps + micro)
         g = torch.Generator().manual_seed(step_seed(cfg.seed, t.step, micro, rank))
-        masked, labels = plan.apply(ids, mask, g)
+        masked, labels = plan.apply(ids, mask, g, starts)
         torch.manual_seed(step_seed(cfg.seed, t.step, micro, rank, 1))  # dropout draws
         last = micro == s.grad_accum_steps - 1
         # no_sync: gradients are all-reduced across processes once, on the last micro-step only
@@ -225,6 +262,18 @@ def _optimizer_step(cfg: PretrainJob, t: Training, data: RunData, plan: MaskingP
     return step_loss, grad_norm
 
 
+def _micro_batch(cfg: PretrainJob, t: Training, data: RunData, micro_index: int):
+    """(ids, attention mask, word starts), each (B, T): this process's share of a micro-batch, the domain rows
+    first, then the replay rows (replay.share of every batch, spread exactly over the run: packing.replay_rows)."""
+    b = cfg.schedule.batch_size
+    n_replay = replay_rows(cfg.replay.share, b, micro_index) if t.replay_cursor is not None else 0
+    parts = [(data.train, t.cursor.next_indices(b - n_replay))]
+    if n_replay:
+        parts.append((data.replay, t.replay_cursor.next_indices(n_replay)))
+    return tuple(torch.cat([getattr(seqs, name)[idx] for seqs, idx in parts])
+                 for name in ("input_ids", "attention_mask", "word_starts"))
+
+
 def _heldout(s: Session, t: Training, data: RunData) -> dict[str, float]:
     """Fixed-mask held-out losses, computed once on the main process (the unwrapped module: no collectives)."""
     module = s.accelerator.unwrap_model(t.loss_module)
@@ -239,6 +288,9 @@ def _train(s: Session, t: Training, data: RunData, plan: MaskingPlan, tokenizer)
     stop_at = sched.stop_after_steps or sched.max_steps
     params = [p for p in t.loss_module.parameters() if p.requires_grad]
     t0, tokens_t0 = time.perf_counter(), t.tokens_seen
+    if patience_spent(t.evals_since_best, cfg.early_stop.patience):  # resumed from its early stop's checkpoint
+        t.stopped_by = EARLY_STOP
+        return
     bar = tqdm(total=sched.max_steps, initial=t.step, desc="pretrain", unit="step",
                disable=not (cfg.runtime.progress and s.main))
     while t.step < stop_at:
@@ -251,22 +303,61 @@ def _train(s: Session, t: Training, data: RunData, plan: MaskingPlan, tokenizer)
                   "learning_rate": t.scheduler.get_last_lr()[0], "grad_norm": grad_norm,
                   "tokens_seen": t.tokens_seen,
                   "tokens_per_second": (t.tokens_seen - tokens_t0) / max(time.perf_counter() - t0, 1e-9)}
-        if cfg.eval.every_steps and t.step % cfg.eval.every_steps == 0 and t.step < sched.max_steps:
+        improved = early = False
+        if _evaluates(cfg, t.step):
             record.update(_heldout(s, t, data))
             log.info("step %d: %s", t.step, _fmt(record))
+            improved, early = _judge(cfg, t, record[LOSS_KEY])
         if s.main:
             s.metrics.write(**record)
         every = cfg.checkpoint.save_every_steps
-        if (every and t.step % every == 0) or t.step == stop_at or stop_now:
-            save_training(s, t, tokenizer)
+        if (every and t.step % every == 0) or t.step == stop_at or stop_now or improved or early:
+            save_training(s, t, tokenizer)  # a new best step keeps its checkpoint out of rotation
         if stop_now:
             t.stopped_by = stop_reason(s)
             log.warning("process %d of %d: stopped after step %d (%s)", accelerator.process_index,
                         accelerator.num_processes, t.step, t.stopped_by)
             break
+        if early:
+            t.stopped_by = EARLY_STOP
+            log.info("early stop after step %d: %d evaluations without an improvement of %g; best step %d "
+                     "(%s %.4g)", t.step, t.evals_since_best, cfg.early_stop.min_improvement, t.best_step,
+                     LOSS_KEY, t.best_loss)
+            break
     bar.close()
     if t.stopped_by is None and t.step < sched.max_steps:
         t.stopped_by = "schedule.stop_after_steps"
+
+
+def _evaluates(cfg: PretrainJob, step: int) -> bool:
+    """Held-out loss every eval.every_steps steps; at the last step only when the best step is tracked (else
+    the final measurement in _finish covers it)."""
+    every, last = cfg.eval.every_steps, step == cfg.schedule.max_steps
+    return bool(every) and (step % every == 0 or (last and tracks_best(cfg))) and (not last or tracks_best(cfg))
+
+
+def _judge(cfg: PretrainJob, t: Training, loss: float) -> tuple[bool, bool]:
+    """(new best step, stop early now), updating the early-stopping state. Every rank holds the same loss."""
+    if not tracks_best(cfg):
+        return False, False
+    verdict = judge(loss, t.best_loss, t.evals_since_best, cfg.early_stop.min_improvement, cfg.early_stop.patience)
+    t.evals_since_best = verdict.evals_since_best
+    if verdict.improved:
+        t.best_loss, t.best_step = loss, t.step
+    return verdict.improved, verdict.stop and t.step < cfg.schedule.max_steps
+
+
+def _best_figures(s: Session, t: Training) -> dict | None:
+    """The best step, its checkpoint and its held-out figures (as metrics.jsonl recorded them); None when the
+    run does not track it."""
+    if not tracks_best(s.cfg) or t.best_step is None:
+        return None
+    folder = best_checkpoint(s.out / CHECKPOINTS)
+    if folder is None or read_state(folder)["step"] != t.best_step:
+        raise RuntimeError(f"the best step {t.best_step} has no checkpoint in {s.out / CHECKPOINTS} (index.json)")
+    record = next(r for r in s.metrics.read() if r.get("phase") == "train" and r.get("step") == t.best_step)
+    return {"step": t.best_step, "folder": BEST, "checkpoint": str(folder),
+            "heldout": {k: v for k, v in record.items() if k.startswith("heldout_")}}
 
 
 def _finish(s: Session, t: Training, data: RunData, tokenizer, head_report) -> dict | None:
@@ -281,13 +372,23 @@ def _finish(s: Session, t: Training, data: RunData, tokenizer, head_report) -> d
     if s.stop_agreed():
         t.stopped_by = stop_reason(s)
         return None
-    result = {"out_dir": str(s.out), "step": t.step, "completed": True, "tokens_seen": t.tokens_seen,
-              "trainable_parameters": t.trainable, "total_parameters": t.total,
-              "head_missing": head_report.missing, "start": _start_figures(s.metrics), "end": end}
+    sched = cfg.schedule
+    result = {"out_dir": str(s.out), "step": t.step, "completed": True, "stopped_by": t.stopped_by,
+              "tokens_seen": t.tokens_seen, "trainable_parameters": t.trainable, "total_parameters": t.total,
+              "num_processes": accelerator.num_processes,
+              "effective_batch_size": sched.batch_size * sched.grad_accum_steps * accelerator.num_processes,
+              "precision": s.precision.precision, "head_missing": head_report.missing,
+              "head_warmup": _warmup_record(s.metrics), "start": _start_figures(s.metrics), "end": end,
+              "best": on_main(accelerator, lambda: _best_figures(s, t))}
 
     def write() -> None:  # a signal from here on lets the export finish: the run is then complete
         s.metrics.write(phase="end", step=t.step, **end)
-        export_checkpoint(final_model, tokenizer, s.out / FINAL, extra=lambda f: write_model_card(f, cfg, result))
+        export_checkpoint(final_model, tokenizer, s.out / FINAL,
+                          extra=lambda f: write_model_card(f, cfg, result, FINAL))
+        if result["best"] is not None:  # the best step's checkpoint files, exactly (adapters merged)
+            export_saved(Path(result["best"]["checkpoint"]), s.out / BEST,
+                         extra=lambda f: write_model_card(f, cfg, result, BEST))
+        write_model_card(s.out / BASE, cfg, result, BASE)
         atomic_write_json(s.out / "result.json", result)
 
     on_main(accelerator, write)
@@ -309,11 +410,14 @@ def _run(s: Session) -> dict:
     adapter = build_adapter(cfg.adapter.kind)
     adapter.check(model, cfg.adapter)  # before the corpus is read
     resume_from, fingerprint = on_main(accelerator, lambda: open_run(s, model, tokenizer, adapter))
+    if s.main:  # rank 0 mirrors metrics.jsonl into TensorBoard event files (when tensorboard is installed)
+        s.metrics.mirror = tensorboard_mirror(s.out / TENSORBOARD,
+                                              s.metrics.trained_steps() if resume_from else None)
     general_dir = optional_str(cfg.general_dir)
     run_folder = RunFolder(s.out, "pretrain", cfg, [cfg.corpus_dir] + ([general_dir] if general_dir else []),
                            cfg.seed) if s.main else None
     m = cfg.masking
-    plan = MaskingPlan(tokenizer, m.rate, m.mask_share, m.random_share)
+    plan = MaskingPlan(tokenizer, m.rate, m.mask_share, m.random_share, m.unit)
     data = _load_data(cfg, tokenizer, plan, accelerator.num_processes)
     model.to(accelerator.device)
     base_weights = None
@@ -330,13 +434,19 @@ def _run(s: Session) -> dict:
     if s.stop_agreed():  # safe point: before the first step, with a checkpoint to resume from
         return stopped_result(s, run_folder, t, stop_reason(s))
     _train(s, t, data, plan, tokenizer)
-    result = _finish(s, t, data, tokenizer, head_report) if t.stopped_by is None else None
+    result = _finish(s, t, data, tokenizer, head_report) if t.stopped_by in (None, EARLY_STOP) else None
     if result is None:
         return stopped_result(s, run_folder, t, t.stopped_by)
     if s.main:
         run_folder.finish("completed", step=t.step, precision=s.precision.record())
     result["summary"] = _summary(result)
     return result
+
+
+def _warmup_record(metrics: MetricsLog) -> dict | None:
+    """Steps, first and last loss and whether the head warm-up converged (None: no warm-up ran)."""
+    warm = [r for r in metrics.read() if r.get("phase") == "head_warmup"]
+    return {k: warm[-1][k] for k in ("steps", "first_loss", "last_loss", "converged")} if warm else None
 
 
 def _start_figures(metrics: MetricsLog) -> dict:
@@ -356,5 +466,10 @@ def _summary(result: dict) -> list[str]:
         after = result["end"][key]
         lines.append(f"  {key:<28} base {before:.4g} -> adapted {after:.4g}" if before is not None
                      else f"  {key:<28} adapted {after:.4g}")
-    lines.append(f"  adapted checkpoint: {Path(result['out_dir']) / 'final'}")
+    if result.get("stopped_by") == EARLY_STOP:
+        lines.append(f"  stopped early at step {result['step']}: the domain held-out loss stopped improving")
+    lines.append(f"  adapted checkpoint: {Path(result['out_dir']) / FINAL}")
+    if result.get("best"):
+        lines.append(f"  best checkpoint (step {result['best']['step']}, lowest {LOSS_KEY}): "
+                     f"{Path(result['out_dir']) / BEST}")
     return lines

@@ -1,5 +1,5 @@
-"""What the pretrain stage leaves behind besides checkpoints: plain exported models, a model card, and the
-exact pseudo-perplexity figures measured at the start and end of a run."""
+"""What the pretrain stage leaves behind besides checkpoints: plain exported models (the model cards are in
+adapt.training.model_card) and the exact pseudo-perplexity figures measured at the start and end of a run."""
 
 from __future__ import annotations
 
@@ -11,13 +11,9 @@ import torch
 from safetensors import SafetensorError
 
 from adapt.common.errors import InputError
-from adapt.common.io import atomic_write_text, fsync_tree, hash_file, replace_folder
+from adapt.common.io import fsync_tree, hash_file, replace_folder
 from adapt.config.pretrain import PretrainJob
 
-CAUTION = ("Trained on text that may come from legal or clinical records. De-identify before training, follow the "
-           "data-protection law that applies to you and your institution's governance, and check the corpus audit "
-           "(profile.md) before sharing this model: it may have memorised rare strings. Its outputs are not legal "
-           "or medical advice.")
 WEIGHTS = "model.safetensors"
 ONE_FILE = "1000GB"  # max_shard_size that keeps every weight in one safetensors file
 
@@ -36,11 +32,32 @@ def export_checkpoint(model: torch.nn.Module, tokenizer, folder: Path,
     fsynced, then renamed over it, so that a kill or a full disk never leaves a half-written one and an earlier
     complete one stays until the new one is in place. ``extra(tmp)`` adds files (the model card). Returns the size
     and sha256 of the weights file. A failed write raises ``InputError`` naming the folder."""
+    return _write_atomically(folder, lambda tmp: write_model_folder(model, tokenizer, tmp), extra)
+
+
+# what a checkpoint holds besides its model folder (the resume state and a LoRA run's peft-format adapters)
+CHECKPOINT_ONLY = ("optimizer.pt", "scheduler.pt", "state.json", "adapter")
+
+
+def export_saved(checkpoint: Path, folder: Path, extra: Callable[[Path], None] | None = None) -> dict[str, dict]:
+    """``folder`` (``best/``) as a byte-for-byte copy of a checkpoint's model files (a plain model folder, adapters
+    merged), written as atomically as ``export_checkpoint``."""
+    def copy(tmp: Path) -> None:
+        tmp.mkdir(parents=True)
+        for path in sorted(Path(checkpoint).iterdir()):
+            if path.is_file() and path.name not in CHECKPOINT_ONLY:
+                shutil.copyfile(path, tmp / path.name)
+
+    return _write_atomically(folder, copy, extra)
+
+
+def _write_atomically(folder: Path, write: Callable[[Path], None],
+                      extra: Callable[[Path], None] | None) -> dict[str, dict]:
     folder = Path(folder)
     tmp = folder.with_name(f".incomplete-{folder.name}")
     shutil.rmtree(tmp, ignore_errors=True)
     try:
-        write_model_folder(model, tokenizer, tmp)
+        write(tmp)
         if extra is not None:
             extra(tmp)
         weights = tmp / WEIGHTS
@@ -71,32 +88,3 @@ def measure_pppl(model: torch.nn.Module, tokenizer, texts: dict[str, list[str]],
                                  progress=cfg.runtime.progress, max_tokens=cfg.eval.pppl_max_tokens)
         out[f"pppl_{name}"] = pseudo_perplexity(scores)
     return out
-
-
-def write_model_card(folder: Path, cfg: PretrainJob, result: dict) -> None:
-    rows = "\n".join(f"| {k} | {result['start'].get(k, float('nan')):.4g} | {v:.4g} |"
-                     for k, v in sorted(result["end"].items()))
-    card = f"""# Domain-adapted encoder
-
-Continued masked-language-model pretraining of `{cfg.encoder.name_or_path}` on the prepared corpus
-`{cfg.corpus_dir}`, made with adapt.
-
-- training variant: {cfg.adapter.kind} ({result['trainable_parameters']:,} of {result['total_parameters']:,} parameters trained)
-- optimizer steps: {result['step']}; tokens seen: {result['tokens_seen']:,}; sequence length {cfg.encoder.max_seq_len}
-- masking: rate {cfg.masking.rate}, mask {cfg.masking.mask_share} / random {cfg.masking.random_share} / keep the rest
-- learning rate {cfg.schedule.learning_rate}, warmup {cfg.schedule.warmup_steps} steps, {cfg.schedule.decay} decay; seed {cfg.seed}
-- MLM head weights missing in the starting checkpoint (warmed up before measuring the base): {len(result['head_missing'])}
-
-## Held-out figures (base = starting encoder with warmed-up head)
-
-| measure | base | adapted |
-|---|---|---|
-{rows}
-
-Pseudo-perplexity figures are only comparable between models that share this tokenizer.
-
-## Cautions
-
-{CAUTION}
-"""
-    atomic_write_text(folder / "README.md", card)

@@ -60,6 +60,8 @@ def build_fingerprint(cfg: PretrainJob, model: torch.nn.Module, tokenizer_vocab_
     fingerprint["corpus.heldout_sha256"] = shards_sha256(cfg.corpus_dir, "heldout")
     general_dir = optional_str(cfg.general_dir)
     fingerprint["general.heldout_sha256"] = shards_sha256(general_dir, "heldout") if general_dir else None
+    if general_dir and cfg.replay.share > 0:  # replay trains on its train split (absent key: no replay)
+        fingerprint["general.train_sha256"] = shards_sha256(general_dir, "train")
     fingerprint["num_processes"] = num_processes
     return fingerprint
 

@@ -40,7 +40,7 @@ def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPla
             break
         idx = cursor.next_indices()
         g = torch.Generator().manual_seed(step_seed(seed, 0x4EAD, step))
-        ids, labels = plan.apply(seqs.input_ids[idx], seqs.attention_mask[idx], g)
+        ids, labels = plan.apply(seqs.input_ids[idx], seqs.attention_mask[idx], g, seqs.word_starts[idx])
         torch.manual_seed(step_seed(seed, 0x4EAD, step, 1))  # dropout draws
         with autocast():
             loss = loss_module(ids.to(device), seqs.attention_mask[idx].to(device), labels.to(device),

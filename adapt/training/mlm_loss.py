@@ -38,19 +38,31 @@ class MaskedOnlyMlm(torch.nn.Module):
 
 
 class MaskingPlan:
-    """Everything masking needs from the tokenizer and config, bound once."""
+    """Everything masking needs from the tokenizer and config, bound once. ``unit``: ``token`` or ``word``
+    (whole words, from the word-start flags the token cache keeps beside the ids)."""
 
-    def __init__(self, tokenizer, rate: float, mask_share: float, random_share: float):
+    def __init__(self, tokenizer, rate: float, mask_share: float, random_share: float, unit: str = "token"):
         self.special_ids = sorted(set(tokenizer.all_special_ids))
         self.mask_token_id = tokenizer.mask_token_id
         self.random_ids = replacement_ids(len(tokenizer), self.special_ids)
-        self.rate, self.mask_share, self.random_share = rate, mask_share, random_share
+        self.rate, self.mask_share, self.random_share, self.unit = rate, mask_share, random_share, unit
 
-    def apply(self, input_ids: torch.Tensor, attention_mask: torch.Tensor, generator: torch.Generator):
+    def apply(self, input_ids: torch.Tensor, attention_mask: torch.Tensor, generator: torch.Generator,
+              word_starts: torch.Tensor | None = None):
+        """(masked ids, labels); ``word_starts`` (B, T) bool is needed when the unit is ``word``."""
+        if self.unit == "word" and word_starts is None:
+            raise RuntimeError("whole-word masking needs the word starts of the rows (PackedSequences.word_starts)")
         special = special_positions(input_ids, self.special_ids) | (attention_mask == 0)
         return mask_tokens(input_ids, special, rate=self.rate, mask_share=self.mask_share,
                            random_share=self.random_share, mask_token_id=self.mask_token_id,
-                           random_ids=self.random_ids, generator=generator)
+                           random_ids=self.random_ids, generator=generator,
+                           word_starts=word_starts if self.unit == "word" else None)
+
+    def apply_rows(self, seqs: PackedSequences, rows, generator: torch.Generator):
+        """(input ids, attention mask, masked ids, labels) of these rows of packed sequences."""
+        ids, mask = seqs.input_ids[rows], seqs.attention_mask[rows]
+        masked, labels = self.apply(ids, mask, generator, seqs.word_starts[rows])
+        return ids, mask, masked, labels
 
 
 class FixedMaskEval:
@@ -59,8 +71,7 @@ class FixedMaskEval:
     def __init__(self, seqs: PackedSequences, plan: MaskingPlan, seed: int, max_seqs: int, batch_size: int):
         n = min(len(seqs), max_seqs)
         g = torch.Generator().manual_seed(step_seed(seed, 0xE7A1))
-        self.input_ids, self.labels = plan.apply(seqs.input_ids[:n], seqs.attention_mask[:n], g)
-        self.attention_mask = seqs.attention_mask[:n]
+        _, self.attention_mask, self.input_ids, self.labels = plan.apply_rows(seqs, slice(0, n), g)
         self.batch_size = batch_size
 
     @property

@@ -51,6 +51,11 @@ class Training:
     base_weights: dict | None = None  # size and sha256 of base/model.safetensors, which a LoRA resume needs
     last_checkpoint: str | None = None
     stopped_by: str | None = None  # a signal's name, or schedule.stop_after_steps
+    replay_cursor: BatchCursor | None = None  # the general text's order when replay.share > 0
+    # early stopping and the best step (adapt.training.early_stop): saved in state.json, restored on resume
+    best_loss: float | None = None  # the domain held-out loss of best_step
+    best_step: int | None = None
+    evals_since_best: int = 0  # evaluations in a row without an improvement of early_stop.min_improvement
 
 
 @dataclass
@@ -106,10 +111,15 @@ def restore_training(t: Training, model, resume_from: Path) -> None:
                             t.scheduler)
     try:
         t.cursor.load_state_dict(state["cursor"])
+        if t.replay_cursor is not None:
+            t.replay_cursor.load_state_dict(state["replay_cursor"])
     except RuntimeError as exc:  # the fingerprint covers what decides the order; kept as a last guard
         raise ConfigError(f"resume from {resume_from}: {exc}; resume with the same settings or start a new "
                           "out_dir") from exc
     t.step, t.tokens_seen = state["step"], state["tokens_seen"]
+    early = state.get("early_stop") or {}
+    t.best_loss, t.best_step = early.get("best_loss"), early.get("best_step")
+    t.evals_since_best = int(early.get("evals_since_best", 0))
     t.base_weights = state["files"].get(BASE_LINK, t.base_weights)
     t.last_checkpoint = str(resume_from)
     log.info("resumed from %s at step %d", resume_from, t.step)
@@ -133,14 +143,18 @@ def save_training(s: Session, t: Training, tokenizer) -> None:
     model = s.accelerator.unwrap_model(t.loss_module).model  # a LoRA run's peft wrapper, adapters unmerged
     check_weights_agree(s, model, t.step)
     state = {"cursor": t.cursor.state_dict(), "tokens_seen": t.tokens_seen, "fingerprint": t.fingerprint,
-             "precision": s.precision.precision}
+             "replay_cursor": t.replay_cursor.state_dict() if t.replay_cursor is not None else None,
+             "precision": s.precision.precision,
+             "early_stop": {"best_loss": t.best_loss, "best_step": t.best_step,
+                            "evals_since_best": t.evals_since_best}}
     linked = {BASE_LINK: t.base_weights} if t.adapter.needs_base else None
 
     def save() -> str:
         s.metrics.sync()  # every step this checkpoint holds is on record before it is named
         folder = save_checkpoint(s.out / CHECKPOINTS, t.step,
                                  lambda f: t.adapter.save_weights(model, tokenizer, f, s.out / BASE),
-                                 t.optimizer, t.scheduler, state, s.cfg.checkpoint.keep_last, linked)
+                                 t.optimizer, t.scheduler, state, s.cfg.checkpoint.keep_last, linked,
+                                 best_step=t.best_step)
         return str(folder)
 
     t.last_checkpoint = on_main(s.accelerator, save)

@@ -2,13 +2,15 @@
 process at every start and resume.
 
 ``<root>/<split>-<key>/tokens.bin`` holds the packed sequences (adapt.training.packing) as a row-major (N, T)
-array of uint16 (when every token id fits) or uint32; ``meta.json`` beside it records the key's inputs, the
-shape and the file size. The key is a sha256 over the split's shard names, sizes and content hashes, the
-tokenizer (vocabulary hash, full definition, special ids), ``max_seq_len`` and ``PACKING_RULE``: change any of
+array of uint16 (when every token id fits) or uint32, ``starts.bin`` their (N, T) uint8 word-start flags (from
+the fast tokenizer's word ids) and ``quality.bin`` one float32 score per sequence; ``meta.json`` beside them
+records the key's inputs, the shape and the file sizes. The key is a sha256 over the split's shard names, sizes and content hashes, the
+tokenizer (vocabulary hash, full definition, special ids), ``max_seq_len`` and ``PACKING_RULE`` (2 since the
+word starts and quality were added: older caches are built again, never misread): change any of
 them and another cache is built next to the old one (delete the folder to reclaim the space).
 
-Building streams shard by shard and batch by batch (only the ``text`` column is read, the fast tokenizer runs on
-a batch of documents at a time), so memory stays flat however large the corpus. Both files are written to a
+Building streams shard by shard and batch by batch (only the ``text`` and ``quality`` columns are read, the fast tokenizer runs on
+a batch of documents at a time), so memory stays flat however large the corpus. All files are written to a
 temporary name, fsynced and renamed; ``meta.json`` goes last, so a folder without it, or whose token file has
 another size, is never used (a build killed half way is simply built again). Builders of one key take a file lock.
 """
@@ -29,14 +31,14 @@ from adapt import __version__
 from adapt.common.errors import InputError
 from adapt.config.common import optional_str
 from adapt.common.io import atomic_write_json, atomic_write_with, hash_file, now_utc, read_json
-from adapt.contracts.prepared_corpus import count_rows, iter_text_batches, split_shards
+from adapt.contracts.prepared_corpus import count_rows, iter_scored_batches, iter_text_batches, split_shards
 from adapt.training.encoder import vocab_sha256
-from adapt.training.packing import PACKING_RULE, PackedSequences, SequencePacker
+from adapt.training.packing import PACKING_RULE, Packed, PackedSequences, SequencePacker
 
 log = logging.getLogger(__name__)
 
 CACHE_FOLDER = "token_cache"  # under out_dir when data.cache_dir is null
-TOKENS, META = "tokens.bin", "meta.json"
+TOKENS, STARTS, QUALITY, META = "tokens.bin", "starts.bin", "quality.bin", "meta.json"
 TOKENIZE_BATCH_DOCS = 1024  # documents per call of the fast tokenizer
 _WHERE_FROM = ("name_or_path", "is_local", "local_files_only", "model_max_length")  # not how text is cut
 
@@ -139,23 +141,27 @@ def open_token_cache(folder: Path) -> PackedSequences:
     if shape[0] == 0:
         return PackedSequences(np.zeros(shape, dtype=meta["dtype"]), 0, meta["num_docs"])
     tokens = np.memmap(folder / TOKENS, dtype=meta["dtype"], mode="r", shape=shape)
-    return PackedSequences(tokens, meta["last_len"], meta["num_docs"])
+    starts = np.memmap(folder / STARTS, dtype=np.uint8, mode="r", shape=shape)
+    quality = np.fromfile(folder / QUALITY, dtype=np.float32)  # 4 bytes a sequence: read whole
+    return PackedSequences(tokens, meta["last_len"], meta["num_docs"], starts, quality)
 
 
 def _valid_meta(folder: Path, record: dict | None) -> dict | None:
     """meta.json of a complete cache (for ``record``, if given), or None."""
     try:
         meta = read_json(folder / META)
-        size = (folder / TOKENS).stat().st_size
+        sizes = {name: (folder / name).stat().st_size for name in (TOKENS, STARTS, QUALITY)}
         if record is not None and meta.get("record") != record:
             return None
-        expected = meta["num_seqs"] * meta["max_seq_len"] * np.dtype(meta["dtype"]).itemsize
+        cells = meta["num_seqs"] * meta["max_seq_len"]
+        expected = {TOKENS: cells * np.dtype(meta["dtype"]).itemsize, STARTS: cells, QUALITY: meta["num_seqs"] * 4}
     except (OSError, ValueError, KeyError, TypeError):  # missing, torn or foreign files: not a complete cache
         return None
-    if size != expected:
-        log.warning("token cache %s: tokens.bin has %d bytes, %d expected; building it again", folder, size,
-                    expected)
-        return None
+    for name, size in sizes.items():
+        if size != expected[name]:
+            log.warning("token cache %s: %s has %d bytes, %d expected; building it again", folder, name, size,
+                        expected[name])
+            return None
     return meta
 
 
@@ -184,39 +190,61 @@ def _build(folder: Path, record: dict, shards: list[Path], tokenizer, max_seq_le
     packer = SequencePacker(max_seq_len, tokenizer.cls_token_id, tokenizer.sep_token_id, tokenizer.pad_token_id)
     counts = {"num_seqs": 0, "num_docs": 0, "last_len": max_seq_len}
     total_docs = count_rows(shards)
+    quality: list[np.ndarray] = []  # 4 bytes a sequence: kept in memory, written after the tokens
 
-    def write(tmp: Path) -> None:
-        with open(tmp, "wb") as fh, tqdm(total=total_docs, desc=f"tokenise {folder.name.split('-')[0]}",
-                                         unit="doc", disable=not progress) as bar:
-            for texts in iter_text_batches(shards, TOKENIZE_BATCH_DOCS):
+    def write(tokens_tmp: Path, starts_tmp: Path) -> None:
+        with open(tokens_tmp, "wb") as fh, open(starts_tmp, "wb") as fs, \
+                tqdm(total=total_docs, desc=f"tokenise {folder.name.split('-')[0]}", unit="doc",
+                     disable=not progress) as bar:
+            for texts, scores in iter_scored_batches(shards, TOKENIZE_BATCH_DOCS):
                 encoded = tokenizer(texts, add_special_tokens=False, return_attention_mask=False,
-                                    return_token_type_ids=False)["input_ids"]
-                rows = packer.add(encoded)
-                _write_rows(fh, rows, dtype, counts)
+                                    return_token_type_ids=False)
+                _write_rows(fh, fs, quality, packer.add(encoded["input_ids"], word_starts(encoded), scores),
+                            dtype, counts)
                 counts["num_docs"] += len(texts)
                 bar.update(len(texts))
-            last, last_len = packer.finish()
-            _write_rows(fh, last, dtype, counts)
-            if len(last):
-                counts["last_len"] = last_len
+            last = packer.finish()
+            _write_rows(fh, fs, quality, last, dtype, counts)
+            if len(last.ids):
+                counts["last_len"] = last.real_len
 
-    atomic_write_with(folder / TOKENS, write)
+    atomic_write_with(folder / TOKENS, lambda tokens_tmp: atomic_write_with(
+        folder / STARTS, lambda starts_tmp: write(tokens_tmp, starts_tmp)))
+    scores = np.concatenate(quality) if quality else np.zeros(0, dtype=np.float32)
+    atomic_write_with(folder / QUALITY, lambda tmp: scores.astype(np.float32).tofile(tmp))
     n, t = counts["num_seqs"], max_seq_len
     meta = {"record": record, "dtype": dtype.name, "max_seq_len": t, "num_seqs": n, "num_docs": counts["num_docs"],
             "last_len": counts["last_len"] if n else 0,
             "num_tokens": (n - 1) * t + counts["last_len"] if n else 0,
+            "word_starts": "word_ids" if getattr(tokenizer, "is_fast", False) else "every token",
+            "scored_seqs": int(np.isfinite(scores).sum()),
             "tool_version": __version__, "built": now_utc()}
     atomic_write_json(folder / META, meta)
     log.info("token cache %s: tokenised %d documents into %d packed sequences (%d tokens, %s)",
              folder, meta["num_docs"], n, meta["num_tokens"], dtype.name)
 
 
-def _write_rows(fh, rows: np.ndarray, dtype: np.dtype, counts: dict) -> None:
+def word_starts(encoded) -> list[list[int]] | None:
+    """Per document, 1 where a token begins a word (the fast tokenizer's word ids change); None from a slow
+    tokenizer, which has no word ids (every token then counts as a word)."""
+    if not getattr(encoded, "is_fast", False):
+        return None
+    out = []
+    for i in range(len(encoded["input_ids"])):
+        ids = encoded.word_ids(i)
+        out.append([int(w is None or j == 0 or w != ids[j - 1]) for j, w in enumerate(ids)])
+    return out
+
+
+def _write_rows(fh, fs, quality: list[np.ndarray], packed: Packed, dtype: np.dtype, counts: dict) -> None:
+    rows = packed.ids
     if not len(rows):
         return
     if int(rows.max()) > np.iinfo(dtype).max:  # an id beyond len(tokenizer): never narrow it silently
         raise RuntimeError(f"token id {int(rows.max())} does not fit {dtype.name}")
     fh.write(rows.astype(dtype).tobytes())
+    fs.write(packed.starts.astype(np.uint8).tobytes())
+    quality.append(packed.quality)
     counts["num_seqs"] += len(rows)
 
 

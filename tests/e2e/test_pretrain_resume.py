@@ -67,6 +67,7 @@ def test_resume_refuses_every_changed_setting_in_one_line(tmp_path, tiny_encoder
         ("seed=1",): ["seed"],
         ("schedule.grad_accum_steps=2",): ["schedule.grad_accum_steps"],
         ("eval.max_heldout_seqs=2",): ["eval.max_heldout_seqs"],
+        ("masking.unit=word", "data.order=quality_weighted"): ["masking.unit", "data.order"],
         (f"encoder.name_or_path={other_weights}",): ["encoder.weights_sha256"],
         (f"encoder.name_or_path={other_vocab}",): ["tokenizer.vocab_sha256"],
         (f"corpus_dir={other_corpus}",): ["corpus.train_sha256"],

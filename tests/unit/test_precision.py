@@ -257,3 +257,15 @@ def test_config_modules_do_not_import_torch():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
                          cwd=Path(__file__).resolve().parents[2])
     assert out.stdout.strip() == "False"
+
+
+def test_two_pretrain_jobs_in_one_process_may_use_different_precisions(monkeypatch):
+    # accelerate keeps one AcceleratorState per process and refuses a second Accelerator with another
+    # mixed_precision; a library user running two jobs in one interpreter (and this test suite) must not hit that
+    from adapt.stages.pretrain import _accelerator
+
+    _hardware(monkeypatch, NATIVE)
+    first, _ = _accelerator(compose_job("pretrain", ["corpus_dir=unused", "runtime.device=cpu", "runtime.precision=bf16"]))
+    assert first.mixed_precision == "bf16"
+    second, _ = _accelerator(compose_job("pretrain", ["corpus_dir=unused", "runtime.device=cpu", "runtime.precision=fp32"]))
+    assert second.mixed_precision == "no"

@@ -302,3 +302,40 @@ def test_a_full_disk_during_the_build_is_one_clear_error_and_leaves_no_cache(tmp
         ensure_token_cache(corpus, "train", tiny_tok, 16, tmp_path / "cache")
     (folder,) = (tmp_path / "cache").iterdir()
     assert not (folder / META).exists() and not (folder / TOKENS).exists() and not list(folder.glob(".*.tmp"))
+
+
+def test_the_cache_keeps_word_starts_and_a_token_weighted_quality_per_sequence(tmp_path, tiny_tok, monkeypatch):
+    monkeypatch.setattr(token_cache, "TOKENIZE_BATCH_DOCS", 5)  # sequences span tokenizer batches and shards
+    rng = random.Random(4)
+    words = list(TINY_WORDS) + ["quartz", "ledger", "xylem"]  # the last three are cut into letter pieces
+    texts = [" ".join(rng.choice(words) for _ in range(rng.randint(3, 25))) for _ in range(30)]
+    scores = [round(rng.random(), 3) for _ in texts]
+    writer = ShardWriter(tmp_path / "c" / "train", OUTPUT_SCHEMA, 7)
+    for i, (text, q) in enumerate(zip(texts, scores)):
+        writer.add({"id": f"d{i}", "text": text, "source": "s", "quality": q, "cluster_id": i, "cluster_size": 1,
+                    "words": len(text.split())})
+    writer.close()
+    seqs = open_token_cache(ensure_token_cache(tmp_path / "c", "train", tiny_tok, 16, tmp_path / "cache"))
+    # reference: the stream of (word start, document score) per token, as transformers' word_ids give it
+    starts, quality = [], []
+    for text, q in zip(texts, scores):
+        ids = tiny_tok(text, add_special_tokens=False).word_ids()
+        starts += [int(j == 0 or w != ids[j - 1]) for j, w in enumerate(ids)] + [1]
+        quality += [q] * (len(ids) + 1)
+    body = 14
+    for row in range(len(seqs)):
+        chunk = slice(row * body, (row + 1) * body)
+        n = len(starts[chunk])
+        assert seqs.word_starts[row][1:1 + n].long().tolist() == starts[chunk]
+        assert seqs.word_starts[row][0] and seqs.word_starts[row][1 + n:].all()  # [CLS], [SEP], padding
+        assert seqs.quality[row] == pytest.approx(np.mean(quality[chunk]), abs=1e-6)
+
+
+def test_a_cache_without_the_word_start_file_is_built_again(tmp_path, tiny_tok, caplog):
+    write_corpus(tmp_path / "c", random_texts(20))
+    folder = ensure_token_cache(tmp_path / "c", "train", tiny_tok, 16, tmp_path / "cache")
+    assert json.loads((folder / META).read_text())["record"]["packing_rule"] == 2
+    (folder / "starts.bin").unlink()  # what a cache of the first packing rule lacks
+    with caplog.at_level(logging.INFO, logger="adapt.training.token_cache"):
+        again = ensure_token_cache(tmp_path / "c", "train", tiny_tok, 16, tmp_path / "cache")
+    assert again == folder and "tokenised" in caplog.text and (folder / "starts.bin").exists()

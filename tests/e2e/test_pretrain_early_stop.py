@@ -83,7 +83,7 @@ def test_the_model_cards_carry_front_matter_and_the_results_figures(tmp_path, ti
     assert f"precision: {result['precision']}" in final
     assert "unit token" in final and "data order: shuffled; general-text replay share: 0.0" in final
     _, best = _front_matter(out / "best" / "README.md")
-    assert f"best (step 2) |" in best and f"{result['best']['heldout']['heldout_loss_domain']:.4g} |" in best
+    assert "best (step 2) |" in best and f"{result['best']['heldout']['heldout_loss_domain']:.4g} |" in best
     unknown, _ = _front_matter(_run_default_card(tmp_path, tiny_encoder))
     assert unknown["license"] == "unknown"
 

@@ -40,6 +40,9 @@ class ScoreJob:
     batch_size: int = 64
     # token or word_l2r (see VARIANTS above).
     variant: str = "token"
+    # Document tokens between the starts of a long document's overlapping windows; each token is scored in the
+    # window giving it the most context on its shorter side. 0 = half a window; >= the window = no overlap.
+    window_stride: int = 0
     # Score a checkpoint whose MLM head was initialised at random (e.g. the packaged encoder). The figure is then
     # meaningless as a quality measure; only for speed measurements and plumbing checks.
     allow_untrained_head: bool = False
@@ -55,6 +58,8 @@ def validate(cfg: ScoreJob, p: Problems, prefix: str = "") -> None:
     p.check(cfg.split in SPLITS, f"{k}split={cfg.split!r} is not one of {', '.join(SPLITS)}; try {k}split=heldout")
     p.check(cfg.max_docs >= 0 and cfg.max_tokens >= 0, f"{k}max_docs and {k}max_tokens must be >= 0 (0 = all)")
     p.check(cfg.batch_size >= 1, f"{k}batch_size={cfg.batch_size} must be >= 1; try {k}batch_size=64")
+    p.check(cfg.window_stride >= 0,
+            f"{k}window_stride={cfg.window_stride} must be >= 0 (0 = half a window); try {k}window_stride=0")
     p.check(cfg.variant in VARIANTS,
             f"{k}variant={cfg.variant!r} is not one of {', '.join(VARIANTS)}; try {k}variant=token")
     p.check(0.0 < cfg.ci.confidence < 1.0,

@@ -130,13 +130,15 @@ def read_prepared(corpus_dir: Path | str, split: str, columns: list[str] | None 
 
 
 def read_texts(path: Path | str, split: str = "heldout", text_field: str = "text") -> list[dict]:
-    """Documents as dicts with ``id`` and ``text`` from a prepared corpus or from loose files."""
+    """Documents as dicts with ``id`` and ``text`` from a prepared corpus or from loose files; a prepared
+    corpus's documents also carry their duplicate ``cluster`` (its cluster_id)."""
     path = Path(path)
     if not path.exists():
         raise InputError(f"{path}: does not exist; give a prepared corpus folder or text files "
                          "(.txt, .jsonl, .csv, .parquet, .gz)")
     if is_prepared_corpus(path):
-        return [{"id": str(r.get("id", i)), "text": r["text"]}
+        return [{"id": str(r.get("id", i)), "text": r["text"],
+                 **({"cluster": int(r["cluster_id"])} if r.get("cluster_id") is not None else {})}
                 for i, r in enumerate(read_prepared(path, split, columns=None))]
     from adapt.config.prepare import ReadConfig
     from adapt.corpus.readers import ReadStats, read_documents

@@ -9,9 +9,13 @@ Variants:
 - ``word_l2r``: each copy also masks the later pieces of the scored token's word, so a word is not predicted from
   its own continuation (PLL-word-l2r, Kauf & Ivanova 2023). Words come from the fast tokenizer's ``word_ids()``.
 
-Windows: a document is tokenised without special tokens and cut into consecutive, non-overlapping chunks of
-``max_seq_len − (number of special tokens)`` tokens; each chunk gets the tokenizer's own special tokens around it
-(``[CLS] … [SEP]`` for BERT, ``<s> … </s>`` for RoBERTa) and is scored alone: a token sees only its chunk.
+Windows: a document is tokenised without special tokens. One that fits in ``max_seq_len − (number of special
+tokens)`` = C tokens is one window. A longer one gets windows of C tokens starting at 0, S, 2S, … (the stride S,
+half a window by default) while a window does not reach the end, then one window ending at the document's end;
+each token is scored in the window that gives it the most context on its shorter side (ties: the earlier window),
+so with S = C/2 every token has at least C/4 tokens of context on each side where the document allows, instead of
+none at the edge of consecutive, non-overlapping chunks (S = C). Each window gets the tokenizer's own special
+tokens around it (``[CLS] … [SEP]`` for BERT, ``<s> … </s>`` for RoBERTa); a token sees only its window.
 Special tokens are never scored: neither the added ones nor any in the text itself (``[UNK]`` included); the
 count of skipped in-text ones is reported.
 
@@ -52,6 +56,7 @@ class DocScores:
     skipped_special: int  # special tokens found inside the texts (e.g. [UNK]) and not scored
     n_windows: int
     seconds: float        # wall time of the forward passes
+    window_stride: int = 0  # the stride used (document tokens between window starts)
 
     @property
     def total_tokens(self) -> int:
@@ -105,11 +110,26 @@ def _tokenize(tokenizer: PreTrainedTokenizerBase, texts: list[str]):
             yield ids, [_NO_WORD if w is None else w for w in enc.word_ids(i)]
 
 
+def window_starts(n: int, capacity: int, stride: int) -> tuple[list[int], np.ndarray]:
+    """(window starts, (n,) index of the window that scores each position) for an n-token document."""
+    if n <= capacity:
+        return [0], np.zeros(n, dtype=np.int64)
+    starts = list(range(0, n - capacity, stride)) + [n - capacity]
+    centre2 = 2 * np.asarray(starts) + capacity - 1  # twice each window's centre (integers)
+    pos2 = 2 * np.arange(n)
+    right = np.clip(np.searchsorted(centre2, pos2), 1, len(starts) - 1)
+    # the window whose centre is nearest has the most context on the shorter side; ties go to the earlier one
+    owner = np.where(pos2 - centre2[right - 1] <= centre2[right] - pos2, right - 1, right)
+    return starts, owner.astype(np.int64)
+
+
 def _build_windows(tokenizer: PreTrainedTokenizerBase, texts: list[str], max_seq_len: int,
-                   max_tokens: int) -> tuple[_Windows, np.ndarray, int]:
-    """Cut documents into windows; apply the token budget. Returns windows, per-doc cut flags, skipped specials."""
+                   max_tokens: int, window_stride: int = 0) -> tuple[_Windows, np.ndarray, int, int]:
+    """Cut documents into windows; apply the token budget. Returns windows, per-doc cut flags, skipped specials
+    and the stride used."""
     prefix, suffix = _special_frame(tokenizer)
     capacity = max_seq_len - len(prefix) - len(suffix)
+    stride = min(window_stride, capacity) if window_stride else max(1, capacity // 2)
     special = set(tokenizer.all_special_ids)
     frame_word = [_NO_WORD] * len(prefix), [_NO_WORD] * len(suffix)
     rows, words, docs, scored, cut = [], [], [], [], []
@@ -124,10 +144,14 @@ def _build_windows(tokenizer: PreTrainedTokenizerBase, texts: list[str], max_seq
             last = int(np.flatnonzero(ok)[max_tokens - used - 1])  # the budget's final scorable token
             ids, wids, ok, cut[-1] = ids[:last + 1], wids[:last + 1], ok[:last + 1], True
         used += int(ok.sum())
-        for s in range(0, len(ids), capacity):
+        starts, owner = window_starts(len(ids), capacity, stride)
+        for k, s in enumerate(starts):
+            mine = np.flatnonzero(ok & (owner == k))  # document positions this window scores
+            if len(mine) == 0 and len(starts) > 1:
+                continue  # a window between two others that scores nothing (small strides) is not built
             rows.append(prefix + ids[s:s + capacity] + suffix)
             words.append(frame_word[0] + wids[s:s + capacity] + frame_word[1])
-            scored.append(len(prefix) + np.flatnonzero(ok[s:s + capacity]))
+            scored.append(len(prefix) + mine - s)
             docs.append(d)
     lengths = torch.tensor([len(r) for r in rows], dtype=torch.long)
     width = int(lengths.max()) if rows else 0
@@ -138,7 +162,7 @@ def _build_windows(tokenizer: PreTrainedTokenizerBase, texts: list[str], max_seq
         ids_t[w, :len(r)] = torch.tensor(r)
         word_t[w, :len(wd)] = torch.tensor(wd)
     win = _Windows(ids_t, word_t, lengths, np.array(docs, dtype=np.int64), scored)
-    return win, np.array(cut, dtype=bool), skipped
+    return win, np.array(cut, dtype=bool), skipped, stride
 
 
 def _check_seq_len(model: PreTrainedModel, tokenizer: PreTrainedTokenizerBase, max_seq_len: int) -> None:
@@ -184,8 +208,12 @@ def _head_agrees(model: PreTrainedModel, ids, attention, t, targets) -> bool:
 
 def score_documents(model: PreTrainedModel, tokenizer: PreTrainedTokenizerBase, texts: list[str], *,
                     max_seq_len: int, batch_size: int = 64, variant: str = "token", precision: str = "fp32",
-                    progress: bool = False, max_tokens: int = 0, masked_head_only: bool = True) -> DocScores:
+                    progress: bool = False, max_tokens: int = 0, masked_head_only: bool = True,
+                    window_stride: int = 0) -> DocScores:
     """Pseudo-log-likelihood of each text (see the module docstring for windows and variants).
+
+    ``window_stride``: document tokens between the starts of a long document's windows (0 = half a window; the
+    window's capacity or more = non-overlapping windows).
 
     ``max_tokens`` > 0 stops after that many scored tokens: the document crossing the budget is cut after its
     last token within budget and later documents are left out. The model is put in eval mode and restored.
@@ -195,7 +223,7 @@ def score_documents(model: PreTrainedModel, tokenizer: PreTrainedTokenizerBase, 
     if tokenizer.mask_token_id is None:
         raise ConfigError(f"{type(tokenizer).__name__} has no mask token; pseudo-perplexity needs an MLM tokenizer")
     _check_seq_len(model, tokenizer, max_seq_len)
-    win, cut, skipped = _build_windows(tokenizer, list(texts), max_seq_len, max_tokens)
+    win, cut, skipped, stride = _build_windows(tokenizer, list(texts), max_seq_len, max_tokens, window_stride)
     n_docs = len(cut)
     # Copies grouped by window, longest windows first, so batches need little padding.
     order = np.argsort(-win.lengths.numpy(), kind="stable").tolist()
@@ -235,7 +263,7 @@ def score_documents(model: PreTrainedModel, tokenizer: PreTrainedTokenizerBase, 
     np.add.at(pll, copy_doc, logp)
     np.add.at(tokens, copy_doc, 1)
     return DocScores(pll=pll, tokens=tokens, cut=cut, variant=variant, skipped_special=skipped,
-                     n_windows=len(win.scored), seconds=seconds)
+                     n_windows=len(win.scored), seconds=seconds, window_stride=stride)
 
 
 def pseudo_perplexity(scores: DocScores) -> float:

@@ -11,7 +11,7 @@ from adapt.common.cautions import DATA_CAUTION, NOT_ADVICE
 from adapt.config.report import ReportJob
 from adapt.contracts.run_folder import BASE, FINAL
 from adapt.reporting import downstream as ds
-from adapt.reporting.pppl_pairs import paired_ratio
+from adapt.evaluation.pppl_paired import paired_ratio
 from adapt.reporting.sources import Source, read_jsonl_file
 from adapt.reporting.values import dig, number
 

@@ -170,11 +170,17 @@ def training_blocks(report: dict) -> list[Block]:
                     f"masking rate {t.get('masking_rate') or MISSING}; encoder {t.get('encoder') or MISSING}."),
                Figure("training")]
     rows = []
-    for key in sorted(set(t.get("start") or {}) | set(t.get("end") or {})):
+    def with_ci(which: str, key: str) -> str:  # pseudo-perplexity carries its bootstrap interval
+        low, high = number(dig(t, which, key + "_ci_low")), number(dig(t, which, key + "_ci_high"))
+        band = f" ({fmt_sig(low)}–{fmt_sig(high)})" if low is not None and high is not None else ""
+        return fmt_sig(number(dig(t, which, key))) + band
+
+    keys = set(t.get("start") or {}) | set(t.get("end") or {})
+    for key in sorted(k for k in keys if not k.endswith(("_ci_low", "_ci_high"))):
         before, after = number(dig(t, "start", key)), number(dig(t, "end", key))
         change = fmt(after - before, 3, signed=True) if before is not None and after is not None else MISSING
         rows.append([key.replace("heldout_loss_", "held-out loss, ").replace("pppl_", "pseudo-perplexity, ")
-                     + " text", fmt_sig(before), fmt_sig(after), change])
+                     + " text", with_ci("start", key), with_ci("end", key), change])
     held: list[Block] = [Sub("Held-out figures before and after")]
     held.append(Table(["figure", "base (step 0)", "adapted (end)", "change"], rows,
                       "MLM loss in nats per masked token, on a fixed mask drawn once from the seed.") if rows

@@ -28,6 +28,24 @@ def _timed(timings: dict, name: str, fn, *args):
     return result
 
 
+def _paired_lines(cfg: DemoJob, scores: dict, texts: dict) -> list[str]:
+    """adapted / base pseudo-perplexity on the same documents, with the paired bootstrap interval."""
+    from adapt.evaluation.pppl_paired import paired_ratio
+
+    lines = ["paired ratio adapted / base (same documents; below 1 = adapted better; bootstrap over documents):"]
+    for text_name in texts:
+        r = paired_ratio(scores[("adapted", text_name)], scores[("base", text_name)],
+                         cfg.score.ci.bootstrap_resamples, cfg.score.ci.confidence, cfg.score.seed)
+        if not r["comparable"]:
+            lines.append(f"  {text_name + ' text':<13} not comparable: {r['reason']}")
+        elif r["ci_low"] is None:
+            lines.append(f"  {text_name + ' text':<13} {r['ratio']:.3f} on {r['n_docs']} documents")
+        else:
+            lines.append(f"  {text_name + ' text':<13} {r['ratio']:.3f} ({r['confidence']:.0%} CI {r['ci_low']:.3f}–"
+                         f"{r['ci_high']:.3f}) on {r['n_docs']} documents, resampling {r['resampling_unit']}")
+    return lines
+
+
 def run(cfg: DemoJob) -> dict:
     from adapt.stages import compare, prepare, pretrain, report, score
 
@@ -63,6 +81,7 @@ def run(cfg: DemoJob) -> dict:
             s = scores[(arm, text_name)]
             parts.append(f"{arm} {s['pseudo_perplexity']:.2f} ({s['ci']['low']:.2f}-{s['ci']['high']:.2f})")
         summary.append(f"  {text_name + ' text':<13} " + "   ".join(parts))
+    summary += _paired_lines(cfg, scores, texts)
     summary += [""] + comparison["summary"] + [""]
     summary.append("stage times (s): " + ", ".join(f"{k} {v}" for k, v in timings.items()))
     summary.append(f"outputs: {out} (prepared/, pretrain/final/, score/, compare/comparison.md, report/)")

@@ -40,7 +40,7 @@ from adapt.contracts.run_folder import BASE, BEST, CHECKPOINTS, FINAL, METRICS, 
 from adapt.training.adapters import Adapter, build_adapter, count_trainable
 from adapt.training.encoder import head_parameter_names, load_mlm, load_tokenizer
 from adapt.training.early_stop import LOSS_KEY, judge, patience_spent
-from adapt.training.export import export_checkpoint, export_saved, measure_pppl
+from adapt.training.export import CI_HIGH, CI_LOW, export_checkpoint, export_saved, measure_pppl
 from adapt.training.model_card import write_model_card
 from adapt.training.head_warmup import warm_up_head
 from adapt.training.mlm_loss import FixedMaskEval, MaskedOnlyMlm, MaskingPlan
@@ -51,7 +51,7 @@ from adapt.training.resume import (Session, Training, open_run, restore_training
                                    stopped_result)
 from adapt.training.stop_signal import StopSignal, agreed_stop
 from adapt.training.tensorboard_log import TENSORBOARD, tensorboard_mirror
-from adapt.training.token_cache import cache_root, leading_texts, load_packed
+from adapt.training.token_cache import cache_root, load_packed, sampled_texts
 
 log = logging.getLogger(__name__)
 
@@ -146,8 +146,8 @@ def _load_data(cfg: PretrainJob, tokenizer, plan: MaskingPlan, num_processes: in
     # the same seed draws the same fixed mask at every start and resume, so held-out figures stay comparable
     evals = {name: FixedMaskEval(seqs, plan, cfg.seed, cfg.eval.max_heldout_seqs, cfg.schedule.batch_size)
              for name, (_, seqs) in sets.items()}
-    # pseudo-perplexity scores the first eval.pppl_max_tokens tokens: only those documents are read
-    texts = {name: leading_texts(folder, "heldout", tokenizer, cfg.eval.pppl_max_tokens)
+    # pseudo-perplexity scores eval.pppl_max_tokens tokens of a seeded random sample: only those documents are kept
+    texts = {name: sampled_texts(folder, "heldout", tokenizer, cfg.eval.pppl_max_tokens, cfg.seed)
              for name, (folder, _) in sets.items()}
     return RunData(train, evals, texts, replay)
 
@@ -461,11 +461,13 @@ def _fmt(record: dict) -> str:
 def _summary(result: dict) -> list[str]:
     lines = [f"pretrain: {result['step']} steps, {result['tokens_seen']:,} tokens seen, "
              f"{result['trainable_parameters']:,} trainable parameters"]
-    for key in sorted(result["end"]):
-        before = result["start"].get(key)
-        after = result["end"][key]
-        lines.append(f"  {key:<28} base {before:.4g} -> adapted {after:.4g}" if before is not None
-                     else f"  {key:<28} adapted {after:.4g}")
+    def figure(d: dict, key: str) -> str:
+        low, high = d.get(f"{key}{CI_LOW}"), d.get(f"{key}{CI_HIGH}")
+        return f"{d[key]:.4g}" + (f" ({low:.4g}-{high:.4g})" if low is not None and high is not None else "")
+
+    for key in sorted(k for k in result["end"] if not k.endswith((CI_LOW, CI_HIGH))):
+        lines.append(f"  {key:<28} base {figure(result['start'], key)} -> adapted {figure(result['end'], key)}"
+                     if key in result["start"] else f"  {key:<28} adapted {figure(result['end'], key)}")
     if result.get("stopped_by") == EARLY_STOP:
         lines.append(f"  stopped early at step {result['step']}: the domain held-out loss stopped improving")
     lines.append(f"  adapted checkpoint: {Path(result['out_dir']) / FINAL}")

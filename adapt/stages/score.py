@@ -101,7 +101,8 @@ def run(cfg: ScoreJob) -> dict:
         scores = score_documents(model.to(device), tokenizer, [d["text"] for d in chosen],
                                  max_seq_len=cfg.encoder.max_seq_len, batch_size=cfg.batch_size,
                                  variant=cfg.variant, precision=precision.precision,
-                                 progress=cfg.runtime.progress, max_tokens=cfg.max_tokens)
+                                 progress=cfg.runtime.progress, max_tokens=cfg.max_tokens,
+                                 window_stride=cfg.window_stride)
         if scores.total_tokens == 0:
             raise InputError(f"{texts_path}: no scorable tokens in the chosen documents (only special or unknown "
                              "tokens); check the text field and the tokenizer, or raise max_docs")
@@ -135,6 +136,7 @@ def _result(cfg: ScoreJob, chosen: list[dict], scores: DocScores, report: HeadRe
         "n_docs": len(scores.tokens),
         "tokens_per_second": scores.total_tokens / max(scores.seconds, 1e-9),
         "max_seq_len": cfg.encoder.max_seq_len,
+        "window_stride": scores.window_stride,
         "windows": scores.n_windows,
         "precision": precision,
         "skipped_special_tokens": scores.skipped_special,
@@ -142,5 +144,7 @@ def _result(cfg: ScoreJob, chosen: list[dict], scores: DocScores, report: HeadRe
         "tokenizer": {"class": type(tokenizer).__name__, "vocab_size": len(tokenizer)},
         "tokenizer_vocab_sha256": vocab_hash,
         "per_document": [{"id": chosen[i]["id"], "tokens": int(scores.tokens[i]), "pll": float(scores.pll[i]),
-                          "cut": bool(scores.cut[i])} for i in range(len(scores.tokens))],
+                          "cut": bool(scores.cut[i]),
+                          **({"cluster": chosen[i]["cluster"]} if "cluster" in chosen[i] else {})}
+                         for i in range(len(scores.tokens))],
     }

@@ -72,14 +72,19 @@ def _write_atomically(folder: Path, write: Callable[[Path], None],
     return digest
 
 
+CI_LOW, CI_HIGH = "_ci_low", "_ci_high"  # suffixes of a figure's 95% interval in the start and end records
+PPPL_RESAMPLES = 1000
+
+
 def measure_pppl(model: torch.nn.Module, tokenizer, texts: dict[str, list[str]], cfg: PretrainJob,
                  precision: str) -> dict[str, float]:
-    """Exact pseudo-perplexity on the first ``eval.pppl_max_tokens`` tokens of each held-out set
-    (keys ``pppl_<name>``); the same documents and tokens at the start and at the end of a run.
+    """Exact pseudo-perplexity on ``eval.pppl_max_tokens`` tokens of a seeded random sample of each held-out set
+    (keys ``pppl_<name>``, with its 95% percentile bootstrap interval over documents in ``pppl_<name>_ci_low``
+    and ``_ci_high``); the same documents and tokens at the start and at the end of a run.
     ``precision`` is the run's resolved one ("fp32" or "bf16")."""
     if cfg.eval.pppl_max_tokens <= 0:
         return {}
-    from adapt.evaluation.pppl import pseudo_perplexity, score_documents
+    from adapt.evaluation.pppl import bootstrap_ci, pseudo_perplexity, score_documents
 
     out = {}
     for name, docs in texts.items():
@@ -87,4 +92,7 @@ def measure_pppl(model: torch.nn.Module, tokenizer, texts: dict[str, list[str]],
                                  batch_size=cfg.eval.pppl_batch_size, precision=precision,
                                  progress=cfg.runtime.progress, max_tokens=cfg.eval.pppl_max_tokens)
         out[f"pppl_{name}"] = pseudo_perplexity(scores)
+        if len(scores.tokens) >= 2:
+            low, high = bootstrap_ci(scores.pll, scores.tokens, PPPL_RESAMPLES, cfg.seed)
+            out[f"pppl_{name}{CI_LOW}"], out[f"pppl_{name}{CI_HIGH}"] = low, high
     return out

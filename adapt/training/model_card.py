@@ -43,10 +43,12 @@ def _figures(result: dict, which: str) -> list[str]:
         after, label = result["best"]["heldout"], f"best (step {result['best']['step']})"
     else:
         after, label = result["end"], f"final (step {result['step']})"
-    keys = sorted(set(start) | set(after))
+    keys = sorted(k for k in set(start) | set(after) if not k.endswith(("_ci_low", "_ci_high")))
     head = ["| measure | base |" + (f" {label} |" if label else ""), "|---|---|" + ("---|" if label else "")]
-    def fmt(d: dict, k: str) -> str:
-        return f"{d[k]:.4g}" if k in d else "not measured"
+
+    def fmt(d: dict, k: str) -> str:  # pseudo-perplexity with its 95% bootstrap interval over documents
+        band = f" ({d[k + '_ci_low']:.4g}–{d[k + '_ci_high']:.4g})" if k + "_ci_low" in d else ""
+        return f"{d[k]:.4g}{band}" if k in d else "not measured"
 
     return head + [f"| {k} | {fmt(start, k)} |" + (f" {fmt(after, k)} |" if label else "") for k in keys]
 

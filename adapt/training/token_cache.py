@@ -248,18 +248,25 @@ def _write_rows(fh, fs, quality: list[np.ndarray], packed: Packed, dtype: np.dty
     counts["num_seqs"] += len(rows)
 
 
-def leading_texts(corpus_dir: str | Path, split: str, tokenizer, max_tokens: int) -> list[str]:
-    """The first documents of the split, just enough to hold ``max_tokens`` scorable tokens (token ids other
-    than special ones, counted as adapt.evaluation.pppl counts its budget), so a pseudo-perplexity sample
-    needs neither the whole split in memory nor more documents than it scores. ``max_tokens`` <= 0: none."""
-    texts: list[str] = []
+def sampled_texts(corpus_dir: str | Path, split: str, tokenizer, max_tokens: int, seed: int) -> list[str]:
+    """A seeded random sample of the split's documents, in the order of ``np.random.default_rng(seed)
+    .permutation(number of documents)``, just long enough to hold ``max_tokens`` scorable tokens (token ids other
+    than special ones, counted as adapt.evaluation.pppl counts its budget). One streaming pass; memory holds only
+    the sample, never the whole split. ``max_tokens`` <= 0: none."""
+    import heapq
+
     if max_tokens <= 0:
-        return texts
-    special, used = set(tokenizer.all_special_ids), 0
-    for batch in iter_text_batches(split_shards(corpus_dir, split), 64):
+        return []
+    shards = split_shards(corpus_dir, split)
+    rank = np.empty(count_rows(shards), dtype=np.int64)
+    rank[np.random.default_rng(seed).permutation(len(rank))] = np.arange(len(rank))  # doc -> place in the order
+    special, held, used, doc = set(tokenizer.all_special_ids), [], 0, 0
+    for batch in iter_text_batches(shards, 64):
         for text, ids in zip(batch, tokenizer(batch, add_special_tokens=False)["input_ids"]):
-            texts.append(text)
-            used += sum(i not in special for i in ids)
-            if used >= max_tokens:
-                return texts
+            n = sum(i not in special for i in ids)
+            heapq.heappush(held, (-int(rank[doc]), text, n))  # the latest-placed document on top
+            used, doc = used + n, doc + 1
+            while len(held) > 1 and used - held[0][2] >= max_tokens:
+                used -= heapq.heappop(held)[2]  # the sample is complete without the latest-placed document
+    return [text for _, text, _ in sorted(held, reverse=True)]
     return texts

@@ -24,6 +24,7 @@ def test_demo_chain_runs_on_the_samples(tmp_path):
         assert (out / path).exists(), path
     text = "\n".join(result["summary"])
     assert "pseudo-perplexity" in text and "verdict" in text and "not legal or medical advice" in text
+    assert "paired ratio adapted / base" in text and "resampling documents" in text
     assert result["summary"][-1] == f"report: {(out / 'report' / 'report.html').resolve()}"
     timings = json.loads((out / "demo.json").read_text())["timings_seconds"]
     assert {"prepare", "pretrain", "compare"} <= set(timings)

@@ -48,7 +48,7 @@ def _restore_threads():
 
 
 def test_fresh_run_writes_the_contract(tmp_path, tiny_encoder_headless):
-    result = run(tiny_cfg(tmp_path, tiny_encoder_headless, "run", "eval.pppl_max_tokens=32"))
+    result = run(tiny_cfg(tmp_path, tiny_encoder_headless, "run", "eval.pppl_max_tokens=120"))
     out = tmp_path / "run"
     assert result["completed"] and result["step"] == 4
     assert result["head_missing"], "the headless encoder must be detected"
@@ -60,6 +60,8 @@ def test_fresh_run_writes_the_contract(tmp_path, tiny_encoder_headless):
     for key in ("heldout_loss_domain", "pppl_domain"):
         assert key in start and key in end and start[key] > 1.0
     assert start["pppl_domain"] != end["pppl_domain"], "training must move the held-out figure"
+    for figures in (start, end):  # a 95% bootstrap interval over the sampled documents around each figure
+        assert figures["pppl_domain_ci_low"] <= figures["pppl_domain"] <= figures["pppl_domain_ci_high"]
     from transformers import AutoModelForMaskedLM
 
     for folder in ("base", "final"):

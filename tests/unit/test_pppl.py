@@ -57,32 +57,72 @@ def tiny(tmp_path_factory):
     return model, AutoTokenizer.from_pretrained(folder)
 
 
-def brute_force(model, tok, text, max_seq_len, variant="token"):
+def brute_windows(n, cap, stride):
+    """Per content position p of an n-token document: the start of the window that scores it.
+
+    The documented rule, written out in plain Python: window starts 0, stride, 2*stride, ... while the window does
+    not reach the end, then one window ending at the document's end; each token is scored in the window that gives
+    it the most context on its shorter side (ties: the earlier window).
+    """
+    if n <= cap:
+        return [0] * n
+    starts = list(range(0, n - cap, stride)) + [n - cap]
+    chosen = []
+    for p in range(n):
+        best = max((min(p - s, s + cap - 1 - p), -s) for s in starts if s <= p < s + cap)
+        chosen.append(-best[1])
+    return chosen
+
+
+def brute_force(model, tok, text, max_seq_len, variant="token", stride=None):
     """(PLL, scored tokens) by the definition: one full forward per position, plain Python, no batching.
 
-    Windows as documented in adapt.pppl: non-overlapping chunks of max_seq_len - 2 tokens, each [CLS] ... [SEP].
+    Windows as documented in adapt.evaluation.pppl: each token is scored inside a window of max_seq_len - 2
+    document tokens framed by [CLS] ... [SEP], chosen by brute_windows; stride None = half a window.
     """
     enc = tok(text, add_special_tokens=False)
     ids, words = enc["input_ids"], enc.word_ids()
     cap = max_seq_len - 2
     total, count = 0.0, 0
-    for s in range(0, len(ids), cap):
+    for p, s in enumerate(brute_windows(len(ids), cap, stride or cap // 2)):
+        if ids[p] in tok.all_special_ids:
+            continue
         seq = [tok.cls_token_id] + ids[s:s + cap] + [tok.sep_token_id]
         seq_words = [None] + words[s:s + cap] + [None]
-        for t in range(1, len(seq) - 1):
-            if seq[t] in tok.all_special_ids:
-                continue
-            masked = list(seq)
-            masked[t] = tok.mask_token_id
-            if variant == "word_l2r":
-                for j in range(t + 1, len(seq) - 1):
-                    if seq_words[j] == seq_words[t]:
-                        masked[j] = tok.mask_token_id
-            with torch.no_grad():
-                logits = model(torch.tensor([masked])).logits[0, t]
-            total += torch.log_softmax(logits, dim=-1)[seq[t]].item()
-            count += 1
+        t = p - s + 1
+        masked = list(seq)
+        masked[t] = tok.mask_token_id
+        if variant == "word_l2r":
+            for j in range(t + 1, len(seq) - 1):
+                if seq_words[j] == seq_words[t]:
+                    masked[j] = tok.mask_token_id
+        with torch.no_grad():
+            logits = model(torch.tensor([masked])).logits[0, t]
+        total += torch.log_softmax(logits, dim=-1)[seq[t]].item()
+        count += 1
     return total, count
+
+
+@pytest.mark.parametrize("stride", [1, 5, 14])
+def test_strided_windows_match_the_brute_force_definition(tiny, stride):
+    # stride 1: every token in the window centred on it (as much context on both sides as the document allows);
+    # stride 14 = the window's capacity: consecutive, non-overlapping windows
+    model, tok = tiny
+    scores = score_documents(model, tok, [LONG_TEXT, TEXTS[0]], max_seq_len=16, batch_size=7, window_stride=stride)
+    expected = [brute_force(model, tok, t, 16, stride=stride) for t in (LONG_TEXT, TEXTS[0])]
+    np.testing.assert_allclose(scores.pll, [e[0] for e in expected], rtol=0, atol=1e-5)
+    assert scores.tokens.tolist() == [e[1] for e in expected]
+
+
+def test_default_stride_gives_every_token_context_on_both_sides(tiny):
+    # half-window stride: a token has at least a quarter of a window on each side unless the document ends first
+    _, tok = tiny
+    n, cap = len(tok(LONG_TEXT, add_special_tokens=False)["input_ids"]), 14
+    for p, s in enumerate(brute_windows(n, cap, cap // 2)):
+        assert min(p - s, s + cap - 1 - p) >= min(p, n - 1 - p, (cap - cap // 2) // 2)
+    # the non-overlapping windows of earlier versions left tokens at a window's edge with one-sided context
+    edge = [min(p - s, s + cap - 1 - p) for p, s in enumerate(brute_windows(n, cap, cap))]
+    assert any(m == 0 and 0 < p < n - 1 for p, m in enumerate(edge))
 
 
 @pytest.mark.parametrize("variant", ["token", "word_l2r"])

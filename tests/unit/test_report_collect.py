@@ -13,7 +13,7 @@ from adapt.common.io import read_json
 from adapt.config.report import ReportJob
 from adapt.reporting.collect import collect
 from adapt.reporting.downstream import per_class
-from adapt.reporting.pppl_pairs import paired_ratio
+from adapt.evaluation.pppl_paired import paired_ratio
 from tests.unit.report_folders import LABELS, per_document, write_all, write_prepared, write_score
 
 
@@ -121,6 +121,35 @@ def test_paired_interval_agrees_with_scipy_bootstrap():
     assert ours["ci_low"] == pytest.approx(ref.confidence_interval.low, abs=0.03 * width)
     assert ours["ci_high"] == pytest.approx(ref.confidence_interval.high, abs=0.03 * width)
     assert ours["ci_low"] < ours["ratio"] < ours["ci_high"] < 1
+
+
+def test_duplicates_are_resampled_as_one_cluster():
+    # Cluster bootstrap (Davison & Hinkley 1997, "Bootstrap Methods and their Application", §3.8: resample the
+    # independent units, here whole duplicate clusters). Five copies of every document in one cluster carry the
+    # information of one document: the interval must equal the de-duplicated set's (same draws: the ratio is
+    # unchanged when every unit's sums are multiplied by five), while a per-document bootstrap of the copies would
+    # narrow it by about sqrt(5).
+    docs = per_document(40, seed=6, shift=0.0)
+    rng = np.random.default_rng(7)
+    better = [{**d, "pll": d["pll"] * (0.9 + 0.15 * rng.random())} for d in docs]
+    frame = {"tokenizer_vocab_sha256": "h", "variant": "token", "max_seq_len": 64}
+    unique = paired_ratio({**frame, "per_document": better}, {**frame, "per_document": docs}, 4000, 0.95, 0)
+
+    def copies(ds, clustered):
+        return [{**d, "id": f"{d['id']}-{k}", **({"cluster": i} if clustered else {})}
+                for i, d in enumerate(ds) for k in range(5)]
+
+    clustered = paired_ratio({**frame, "per_document": copies(better, True)},
+                             {**frame, "per_document": copies(docs, True)}, 4000, 0.95, 0)
+    naive = paired_ratio({**frame, "per_document": copies(better, False)},
+                         {**frame, "per_document": copies(docs, False)}, 4000, 0.95, 0)
+    assert clustered["resampling_unit"] == "duplicate clusters" and clustered["n_units"] == 40
+    assert unique["resampling_unit"] == "documents" and clustered["n_docs"] == 200
+    assert clustered["ratio"] == pytest.approx(unique["ratio"], rel=1e-12)
+    assert (clustered["ci_low"], clustered["ci_high"]) == pytest.approx((unique["ci_low"], unique["ci_high"]),
+                                                                       rel=1e-12)
+    width = unique["ci_high"] - unique["ci_low"]
+    assert naive["ci_high"] - naive["ci_low"] < 0.6 * width  # what ignoring the clusters would claim
 
 
 def test_paired_ratio_refuses_different_tokenizers(tmp_path):

@@ -21,7 +21,7 @@ from transformers import BertTokenizerFast
 from adapt.contracts.prepared_corpus import OUTPUT_SCHEMA, ShardWriter, read_texts
 from adapt.training import token_cache
 from adapt.training.packing import PackedSequences
-from adapt.training.token_cache import (META, TOKENS, ensure_token_cache, leading_texts, load_packed,
+from adapt.training.token_cache import (META, TOKENS, ensure_token_cache, load_packed, sampled_texts,
                                         open_token_cache, token_dtype)
 from tests.conftest import TINY_WORDS, build_tiny_encoder
 
@@ -237,18 +237,25 @@ def test_a_vocabulary_beyond_65536_ids_is_stored_as_uint32(tmp_path):
     assert int(seqs.input_ids[torch.arange(len(seqs))].max()) == 70_004
 
 
-def test_leading_texts_hold_exactly_what_the_pppl_budget_scores(tmp_path, tiny_tok):
+def test_sampled_texts_are_the_seeded_random_documents_the_pppl_budget_scores(tmp_path, tiny_tok):
     from adapt.evaluation.pppl import _build_windows
 
     texts = random_texts(50)
     corpus = write_corpus(tmp_path / "corpus", texts, split="heldout")
-    for budget in (1, 37, 200, 10_000):
-        lead = leading_texts(corpus, "heldout", tiny_tok, budget)
-        assert lead == texts[:len(lead)]
-        everything, cut_all, _ = _build_windows(tiny_tok, texts, 16, budget)
-        prefix, cut_lead, _ = _build_windows(tiny_tok, lead, 16, budget)
-        assert torch.equal(everything.ids, prefix.ids) and (cut_all == cut_lead).all()
-    assert leading_texts(corpus, "heldout", tiny_tok, 0) == []
+    special = set(tiny_tok.all_special_ids)
+    sizes = [sum(i not in special for i in ids) for ids in tiny_tok(texts, add_special_tokens=False)["input_ids"]]
+    for seed in (0, 1):
+        order = np.random.default_rng(seed).permutation(len(texts))  # the documented order, computed directly
+        for budget in (1, 37, 200, 10_000):
+            sample = sampled_texts(corpus, "heldout", tiny_tok, budget, seed)
+            k = next((j + 1 for j in range(len(order)) if sum(sizes[i] for i in order[:j + 1]) >= budget),
+                     len(order))
+            assert sample == [texts[i] for i in order[:k]]
+            scored = _build_windows(tiny_tok, sample, 16, budget)[0]
+            assert sum(len(x) for x in scored.scored) == min(budget, sum(sizes))  # exactly the budget is scored
+    assert sampled_texts(corpus, "heldout", tiny_tok, 200, 0) != sampled_texts(corpus, "heldout", tiny_tok, 200, 1)
+    assert sampled_texts(corpus, "heldout", tiny_tok, 200, 0)[:3] != texts[:3]  # not the leading documents
+    assert sampled_texts(corpus, "heldout", tiny_tok, 0, 0) == []
 
 
 class _Rank:

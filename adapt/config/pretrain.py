@@ -31,15 +31,19 @@ class ScheduleConfig:
 class HeadWarmupConfig:
     # auto: warm up only when the MLM head is missing or partial; always; never.
     when: str = "auto"
-    # Most optimizer steps training the head alone with the encoder frozen.
-    steps: int = 300
-    # measured on the packaged encoder: 1e-2 reaches in 300 steps the held-out loss 3e-3 needs 500 for
-    learning_rate: float = 1e-2
-    batch_size: int = 16
-    # Stop early once the mean loss of the last `window_steps` steps improves on the window before it by less
-    # than this share (0 = always run all steps). A half-trained head makes the base look worse than it is.
+    # The frozen encoder runs once over this many seeded training sequences (masked as in training); the head is
+    # then fit on the cached hidden states at their masked positions.
+    sample_seqs: int = 256
+    # Share of those sequences held out: the fit stops on their loss.
+    heldout_share: float = 0.15
+    # Most epochs over the cached training positions (one epoch = one window of the stopping rule).
+    max_epochs: int = 40
+    learning_rate: float = 1e-3
+    # Cached masked positions per AdamW step.
+    batch_size: int = 256
+    # Stop once two epochs in a row improve the held-out loss by less than this share (0 = run max_epochs).
+    # A half-trained head makes the base look worse than it is.
     min_improvement: float = 0.01
-    window_steps: int = 50
 
 
 # The training variants of the registry in adapt.training.adapters (a contract test keeps the two equal; the
@@ -191,11 +195,12 @@ def validate(cfg: PretrainJob, p: Problems, prefix: str = "") -> None:
     h = cfg.head_warmup
     p.check(h.when in ("auto", "always", "never"),
             f"{k}head_warmup.when={h.when!r} is not one of auto, always, never")
-    p.check(h.steps >= 0 and h.batch_size >= 1 and h.learning_rate > 0,
-            f"{k}head_warmup needs steps >= 0, batch_size >= 1, learning_rate > 0")
-    p.check(0 <= h.min_improvement < 1 and h.window_steps >= 1,
-            f"{k}head_warmup needs 0 <= min_improvement < 1 and window_steps >= 1 "
-            f"(got {h.min_improvement}, {h.window_steps}); try min_improvement=0.01 window_steps=25")
+    p.check(h.sample_seqs >= 2 and h.max_epochs >= 1 and h.batch_size >= 1 and h.learning_rate > 0,
+            f"{k}head_warmup needs sample_seqs >= 2, max_epochs >= 1, batch_size >= 1, learning_rate > 0 (got "
+            f"{h.sample_seqs}, {h.max_epochs}, {h.batch_size}, {h.learning_rate}); set head_warmup.when=never to skip it")
+    p.check(0 < h.heldout_share < 1 and 0 <= h.min_improvement < 1,
+            f"{k}head_warmup needs 0 < heldout_share < 1 and 0 <= min_improvement < 1 "
+            f"(got {h.heldout_share}, {h.min_improvement}); try heldout_share=0.15 min_improvement=0.01")
     a = cfg.adapter
     p.check(a.kind in ADAPTER_KINDS, f"{k}adapter.kind={a.kind!r} is not one of {', '.join(ADAPTER_KINDS)}; "
             "try adapter.kind=full")

@@ -175,8 +175,11 @@ def training_section(c: Collected, src: Source) -> dict[str, Any]:
         "tokens_per_second": [number(r.get("tokens_per_second")) for r in train],
         "heldout": {name: [[r.get("step"), number(r.get(f"heldout_loss_{name}"))] for r in evals
                            if number(r.get(f"heldout_loss_{name}")) is not None] for name in sets},
-        "head_warmup": {"losses": [number(v) for v in dig(warm[-1], "losses") or []],
-                        "converged": warm[-1].get("converged"), "steps": warm[-1].get("steps")} if warm else None,
+        # held-out loss before the fit and after each epoch (run folders from before the cached fit: "losses")
+        "head_warmup": {"losses": [number(v) for v in dig(warm[-1], "heldout_losses") or dig(warm[-1], "losses")
+                                   or []],
+                        "converged": warm[-1].get("converged"), "steps": warm[-1].get("steps"),
+                        "epochs": warm[-1].get("epochs")} if warm else None,
         "start": result.get("start") or _figures(_last_per_step(records, "start")),
         "end": result.get("end") or _figures(_last_per_step(records, "end")),
         "step": result.get("step", train[-1].get("step") if train else None),

@@ -264,15 +264,14 @@ def warmup_plot(training: dict) -> Plot | None:
     if not losses:
         return None
     fig, (ax,) = _figure(4.2, 2.6)
-    ax.plot(range(1, len(losses) + 1), losses, color=PURPLE, marker="." if len(losses) < 60 else None,
-            linewidth=1.4)
-    ax.set_xlabel("head warm-up step (encoder frozen)")
-    ax.set_ylabel("MLM loss (nats per masked token)")
+    ax.plot(range(len(losses)), losses, color=PURPLE, marker="." if len(losses) < 60 else None, linewidth=1.4)
+    ax.set_xlabel("head warm-up epoch (encoder frozen; 0 = before)")
+    ax.set_ylabel("held-out MLM loss (nats per masked token)")
     ax.set_title("MLM head warm-up" + ("" if warm.get("converged") else " (still falling at the end)"))
-    return _render("head_warmup", fig, f"Head warm-up loss from {losses[0]:.3f} to {losses[-1]:.3f} over "
-                   f"{len(losses)} steps; converged: {warm.get('converged')}",
-                   "Loss of the MLM head trained alone before the base figures are measured. A curve still "
-                   "falling at the end means the base figures are pessimistic.")
+    return _render("head_warmup", fig, f"Head warm-up held-out loss from {losses[0]:.3f} to {min(losses):.3f} "
+                   f"over {len(losses) - 1} epochs; converged: {warm.get('converged')}",
+                   "Held-out loss of the MLM head trained alone, on cached encoder states, before the base figures "
+                   "are measured. A curve still falling at the end means the base figures are pessimistic.")
 
 
 @_styled

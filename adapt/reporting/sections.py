@@ -194,8 +194,8 @@ def _warmup_blocks(warm: dict | None) -> list[Block]:
         return blocks + [Para("No head warm-up ran: the starting checkpoint's MLM head was complete (or the run "
                               "turned the warm-up off).", "note")]
     losses = [v for v in warm.get("losses") or [] if v is not None]
-    return blocks + [Para(f"{fmt_int(warm.get('steps'))} steps with the encoder frozen, loss "
-                          f"{fmt(losses[0] if losses else None)} → {fmt(losses[-1] if losses else None)}; "
+    return blocks + [Para(f"{fmt_int(warm.get('epochs'))} epochs with the encoder frozen, held-out loss "
+                          f"{fmt(losses[0] if losses else None)} → {fmt(min(losses) if losses else None)}; "
                           + ("levelled off." if warm.get("converged") else
                              "still falling at the end: the base figures are pessimistic.")),
                      Figure("head_warmup")]

@@ -169,22 +169,29 @@ def _warm_up_head(s: Session, model, head_report, data: RunData, plan: MaskingPl
     warm = cfg.head_warmup
     if not (warm.when == "always" or (warm.when == "auto" and head_report.needs_warmup)):
         return
-    if warm.steps == 0 and head_report.needs_warmup:
-        log.warning("the MLM head is untrained and head_warmup.steps=0: base figures are meaningless")
 
     def warm_up() -> None:
-        losses, converged = warm_up_head(
-            model, data.train, plan, steps=warm.steps, learning_rate=warm.learning_rate,
-            batch_size=warm.batch_size, seed=cfg.seed, device=accelerator.device, autocast=accelerator.autocast,
-            progress=cfg.runtime.progress, min_improvement=warm.min_improvement, window_steps=warm.window_steps,
-            should_stop=lambda: s.stop.requested)
-        if not losses or s.stop.requested:  # stopped half way: a restart warms up again from the start
+        if len(data.train) < 2:
+            raise InputError(f"corpus_dir={cfg.corpus_dir}: {len(data.train)} training sequence, but the head "
+                             "warm-up holds one out; add text or set head_warmup.when=never")
+        result = warm_up_head(
+            model, data.train, plan, sample_seqs=warm.sample_seqs, heldout_share=warm.heldout_share,
+            max_epochs=warm.max_epochs, learning_rate=warm.learning_rate, batch_size=warm.batch_size,
+            min_improvement=warm.min_improvement, seed=cfg.seed, device=accelerator.device,
+            autocast=accelerator.autocast, progress=cfg.runtime.progress,
+            encode_batch_size=cfg.schedule.batch_size, should_stop=lambda: s.stop.requested)
+        if result is None or result.stopped or s.stop.requested:  # a restart warms up again from the start
             return
-        s.metrics.write(phase="head_warmup", steps=len(losses), first_loss=losses[0], last_loss=losses[-1],
-                        converged=converged, losses=losses)
-        if not converged and warm.min_improvement > 0:
-            log.warning("the MLM head was still improving after head_warmup.steps=%d (loss %.3f -> %.3f): base "
-                        "figures may be too pessimistic; raise head_warmup.steps", len(losses), losses[0], losses[-1])
+        losses = result.heldout_losses
+        s.metrics.write(phase="head_warmup", steps=result.steps, epochs=len(result.train_losses),
+                        first_loss=losses[0], last_loss=result.best_loss, converged=result.converged,
+                        heldout_losses=losses, train_losses=result.train_losses,
+                        cached_positions=result.num_train, heldout_positions=result.num_heldout,
+                        seconds=result.encode_seconds + result.fit_seconds, encode_seconds=result.encode_seconds)
+        if not result.converged and warm.min_improvement > 0:
+            log.warning("the MLM head's held-out loss was still falling after head_warmup.max_epochs=%d (%.3f -> "
+                        "%.3f): base figures may be too pessimistic; raise head_warmup.max_epochs",
+                        warm.max_epochs, losses[0], result.best_loss)
 
     on_main(accelerator, warm_up)
     head = set(head_parameter_names(model))
@@ -444,9 +451,11 @@ def _run(s: Session) -> dict:
 
 
 def _warmup_record(metrics: MetricsLog) -> dict | None:
-    """Steps, first and last loss and whether the head warm-up converged (None: no warm-up ran)."""
+    """Steps, epochs, held-out loss before and after, whether the head warm-up converged, its seconds (None: no
+    warm-up ran)."""
     warm = [r for r in metrics.read() if r.get("phase") == "head_warmup"]
-    return {k: warm[-1][k] for k in ("steps", "first_loss", "last_loss", "converged")} if warm else None
+    keys = ("steps", "epochs", "first_loss", "last_loss", "converged", "seconds")
+    return {k: warm[-1].get(k) for k in keys} if warm else None
 
 
 def _start_figures(metrics: MetricsLog) -> dict:

@@ -1,62 +1,198 @@
-"""Warm up a missing or partial MLM head with the encoder frozen, so that the base model is measured fairly."""
+"""Warm up a missing or partial MLM head with the encoder frozen, so that the base model is measured fairly.
+
+With the encoder frozen, the final hidden states at masked positions do not change while the head trains. So the
+encoder runs once (eval mode, no gradients) over a seeded sample of masked training sequences, and the head is fit
+for many epochs on those cached states alone: (M, H) rows and their labels instead of a full forward per step.
+The head's transform and output bias train; a decoder tied to the word embeddings stays tied (and frozen with
+them). A seeded share of the sampled sequences is held out, and the fit stops on the held-out loss.
+"""
 
 from __future__ import annotations
 
+import time
+from dataclasses import dataclass
 from typing import Callable
 
 import torch
+import torch.nn.functional as F
 from tqdm.auto import tqdm
 
 from adapt.common.seeding import step_seed
-from adapt.training.encoder import head_parameter_names
-from adapt.training.mlm_loss import MaskedOnlyMlm, MaskingPlan
-from adapt.training.packing import BatchCursor, PackedSequences
+from adapt.training.encoder import encoder_body, head_parameter_names, mlm_head
+from adapt.training.masking import IGNORE_INDEX
+from adapt.training.mlm_loss import MaskingPlan
+from adapt.training.packing import PackedSequences
+
+SALT = 0x4EAD
 
 
-def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPlan, *, steps: int,
-                 learning_rate: float, batch_size: int, seed: int, device: torch.device, autocast,
-                 progress: bool, min_improvement: float = 0.0, window_steps: int = 25,
-                 should_stop: Callable[[], bool] = lambda: False) -> tuple[list[float], bool]:
-    """Train the MLM head alone (encoder frozen, run without gradients); return (losses, converged).
+@dataclass
+class MaskedStates:
+    """Final hidden states at the masked positions of some sequences: ``hidden`` (M, H) float32, ``labels`` (M,)
+    and ``rows`` (M,), the sampled sequence (0 .. n-1) each position came from."""
 
-    Stops early when the mean loss over the last ``window_steps`` improves on the window before by less than
-    ``min_improvement`` (relative); ``converged`` says whether that happened before ``steps`` ran out.
-    ``should_stop()`` true (a stop signal) ends it after the current step.
+    hidden: torch.Tensor
+    labels: torch.Tensor
+    rows: torch.Tensor
+
+    def subset(self, keep: torch.Tensor) -> "MaskedStates":
+        return MaskedStates(self.hidden[keep], self.labels[keep], self.rows[keep])
+
+
+@dataclass
+class WarmupResult:
+    """``heldout_losses``: held-out loss before the fit, then after each epoch; ``train_losses``: mean training loss
+    of each epoch; ``steps``: optimizer steps; ``converged``: stopped by the held-out criterion; the head kept is
+    the one of the lowest held-out loss (``best_loss``). ``stopped``: a stop signal ended it early."""
+
+    heldout_losses: list[float]
+    train_losses: list[float]
+    steps: int
+    converged: bool
+    stopped: bool
+    num_train: int
+    num_heldout: int
+    encode_seconds: float
+    fit_seconds: float
+
+    @property
+    def best_loss(self) -> float:
+        return min(self.heldout_losses)
+
+
+def sample_rows(num_seqs: int, sample_seqs: int, heldout_share: float, seed: int) -> tuple[torch.Tensor, int]:
+    """(rows, n_heldout): a seeded sample of at most ``sample_seqs`` sequence rows; the first n_heldout of them
+    (at least one, and at least one left to train on) are the held-out ones."""
+    if num_seqs < 2:
+        raise RuntimeError(f"the head warm-up needs at least 2 training sequences (one held out), got {num_seqs}")
+    g = torch.Generator().manual_seed(step_seed(seed, SALT))
+    rows = torch.randperm(num_seqs, generator=g)[:min(sample_seqs, num_seqs)]
+    n_heldout = min(max(1, round(heldout_share * len(rows))), len(rows) - 1)
+    return rows, n_heldout
+
+
+@torch.no_grad()
+def cache_masked_states(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPlan, rows: torch.Tensor, *,
+                        seed: int, batch_size: int, device: torch.device, autocast,
+                        should_stop: Callable[[], bool] = lambda: False) -> MaskedStates | None:
+    """One eval-mode, gradient-free pass of the encoder over ``rows`` with a seeded mask (None: stopped)."""
+    g = torch.Generator().manual_seed(step_seed(seed, SALT, 1))
+    _, mask, masked, labels = plan.apply_rows(seqs, rows, g)  # (n, T): one mask for the whole sample
+    body = encoder_body(model)
+    was_training = model.training
+    model.eval()  # no dropout: the cached states are the ones the frozen encoder gives
+    hidden, kept, owner = [], [], []
+    try:
+        for start in range(0, len(rows), batch_size):
+            if should_stop():
+                return None
+            sl = slice(start, start + batch_size)
+            selected = labels[sl] != IGNORE_INDEX  # (B, T)
+            with autocast():
+                states = body(input_ids=masked[sl].to(device), attention_mask=mask[sl].to(device)).last_hidden_state
+            hidden.append(states[selected.to(device)].float().cpu())  # (m, H)
+            kept.append(labels[sl][selected])
+            owner.append(torch.arange(start, start + selected.shape[0]).unsqueeze(1).expand_as(selected)[selected])
+    finally:
+        model.train(was_training)
+    return MaskedStates(torch.cat(hidden), torch.cat(kept), torch.cat(owner))
+
+
+def heldout_loss(head: torch.nn.Module, states: MaskedStates, batch_size: int, device: torch.device,
+                 autocast) -> float:
+    """Mean cross-entropy of ``head`` over the cached positions."""
+    total = 0.0
+    with torch.no_grad():
+        for start in range(0, len(states.labels), batch_size):
+            sl = slice(start, start + batch_size)
+            with autocast():
+                logits = head(states.hidden[sl].to(device))  # (m, V)
+            total += float(F.cross_entropy(logits.float(), states.labels[sl].to(device), reduction="sum"))
+    return total / max(len(states.labels), 1)
+
+
+def flat_twice(heldout_losses: list[float], min_improvement: float) -> bool:
+    """True when each of the last two windows improved the held-out loss by less than ``min_improvement``
+    (relative to the window before); 0 never stops."""
+    if min_improvement <= 0 or len(heldout_losses) < 3:
+        return False
+    a, b, c = heldout_losses[-3:]
+    return a - b < min_improvement * a and b - c < min_improvement * b
+
+
+def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPlan, *, sample_seqs: int,
+                 heldout_share: float, max_epochs: int, learning_rate: float, batch_size: int,
+                 min_improvement: float, seed: int, device: torch.device, autocast, progress: bool,
+                 encode_batch_size: int = 16, should_stop: Callable[[], bool] = lambda: False
+                 ) -> WarmupResult | None:
+    """Train the MLM head alone on cached encoder states; None if ``should_stop()`` ended the encoder pass.
+
+    One window = one epoch over the training positions, ``batch_size`` positions an AdamW step; the held-out loss
+    is measured before the first and after every window; stops once two windows in a row are flat
+    (``flat_twice``), or after ``max_epochs``. The head of the lowest held-out loss is kept.
     """
-    head_names = set(head_parameter_names(model))
-    frozen = {n: p.requires_grad for n, p in model.named_parameters()}
-    for name, param in model.named_parameters():
-        param.requires_grad_(name in head_names)
-    head_params = [p for n, p in model.named_parameters() if n in head_names]
-    optimizer = torch.optim.AdamW(head_params, lr=learning_rate, weight_decay=0.0,
+    head = mlm_head(model)
+    if head is None:
+        raise RuntimeError(f"no MLM head found on {type(model).__name__}: the head warm-up needs cls or lm_head")
+    began = time.perf_counter()
+    rows, n_heldout = sample_rows(len(seqs), sample_seqs, heldout_share, seed)
+    states = cache_masked_states(model, seqs, plan, rows, seed=seed, batch_size=encode_batch_size, device=device,
+                                 autocast=autocast, should_stop=should_stop)
+    if states is None:
+        return None
+    encoded = time.perf_counter()
+    held, train = states.subset(states.rows < n_heldout), states.subset(states.rows >= n_heldout)
+    names = set(head_parameter_names(model))
+    params = dict(model.named_parameters())
+    frozen = {n: p.requires_grad for n, p in params.items()}
+    for name, param in params.items():
+        param.requires_grad_(name in names)
+    head_params = {n: p for n, p in params.items() if n in names}
+    optimizer = torch.optim.AdamW(list(head_params.values()), lr=learning_rate, weight_decay=0.0,
                                   fused=device.type in ("cpu", "cuda"))
-    loss_module = MaskedOnlyMlm(model).to(device).train()
-    cursor = BatchCursor(len(seqs), min(batch_size, len(seqs)), step_seed(seed, 0x4EAD))
-    losses: list[float] = []
-    converged = False
-    bar = tqdm(range(steps), desc="head warm-up", unit="step", disable=not progress)
-    for step in bar:
-        if should_stop():
-            break
-        idx = cursor.next_indices()
-        g = torch.Generator().manual_seed(step_seed(seed, 0x4EAD, step))
-        ids, labels = plan.apply(seqs.input_ids[idx], seqs.attention_mask[idx], g, seqs.word_starts[idx])
-        torch.manual_seed(step_seed(seed, 0x4EAD, step, 1))  # dropout draws
-        with autocast():
-            loss = loss_module(ids.to(device), seqs.attention_mask[idx].to(device), labels.to(device),
-                               body_grad=False)
-        loss.backward()
-        optimizer.step()
-        optimizer.zero_grad(set_to_none=True)
-        losses.append(float(loss.detach()))
-        bar.set_postfix(loss=f"{losses[-1]:.3f}")
-        if min_improvement > 0 and len(losses) >= 2 * window_steps and len(losses) % window_steps == 0:
-            last = sum(losses[-window_steps:]) / window_steps
-            before = sum(losses[-2 * window_steps:-window_steps]) / window_steps
-            if before - last < min_improvement * before:
+    g = torch.Generator().manual_seed(step_seed(seed, SALT, 2))
+    eval_batch = max(batch_size, 1024)
+    losses = [heldout_loss(head, held, eval_batch, device, autocast)]
+    best = {n: p.detach().clone() for n, p in head_params.items()}
+    train_losses: list[float] = []
+    steps, converged, stopped = 0, False, False
+    was_training = model.training
+    model.eval()  # the head has no dropout; eval keeps any module that has one quiet
+    bar = tqdm(range(max_epochs), desc="head warm-up", unit="epoch", disable=not progress)
+    try:
+        for _ in bar:
+            order = torch.randperm(len(train.labels), generator=g)
+            total = 0.0
+            for start in range(0, len(order), batch_size):
+                if should_stop():
+                    stopped = True
+                    break
+                idx = order[start:start + batch_size]
+                with autocast():
+                    logits = head(train.hidden[idx].to(device))  # (b, V)
+                loss = F.cross_entropy(logits.float(), train.labels[idx].to(device))
+                loss.backward()
+                optimizer.step()
+                optimizer.zero_grad(set_to_none=True)
+                total += float(loss.detach()) * len(idx)
+                steps += 1
+            if stopped:
+                break
+            train_losses.append(total / len(order))
+            losses.append(heldout_loss(head, held, eval_batch, device, autocast))
+            bar.set_postfix(heldout=f"{losses[-1]:.3f}")
+            if losses[-1] <= min(losses[:-1]):
+                best = {n: p.detach().clone() for n, p in head_params.items()}
+            if flat_twice(losses, min_improvement):
                 converged = True
                 break
-    bar.close()
-    for name, param in model.named_parameters():
-        param.requires_grad_(frozen[name])
-    return losses, converged
+    finally:
+        bar.close()
+        with torch.no_grad():
+            for name, param in head_params.items():
+                param.copy_(best[name])
+        for name, param in params.items():
+            param.requires_grad_(frozen[name])
+        model.train(was_training)
+    return WarmupResult(losses, train_losses, steps, converged, stopped, len(train.labels), len(held.labels),
+                        encoded - began, time.perf_counter() - encoded)

@@ -57,7 +57,8 @@ def write_model_card(folder: Path, cfg: PretrainJob, result: dict, which: str) -
     """README.md of ``folder``, ``which`` one of base, final, best."""
     warm = result.get("head_warmup")
     warm_line = ("no head warm-up ran (the starting checkpoint has a complete MLM head)" if warm is None else
-                 f"head warm-up: {warm['steps']} steps, loss {warm['first_loss']:.4g} -> {warm['last_loss']:.4g}, "
+                 f"head warm-up on cached encoder states: {warm.get('epochs')} epochs, held-out loss "
+                 f"{warm['first_loss']:.4g} -> {warm['last_loss']:.4g}, "
                  f"{'converged' if warm['converged'] else 'still improving when it stopped'}")
     best = result.get("best")
     licence = (f"`{cfg.card.license}`, as given by the person who trained it (card.license)" if cfg.card.license

@@ -161,9 +161,10 @@ def test_every_adapter_trains_and_exports(tmp_path, tiny_encoder, kind):
 
 
 def test_head_warmup_stops_when_the_loss_levels_off(tmp_path, tiny_encoder_headless):
-    run(tiny_cfg(tmp_path, tiny_encoder_headless, "run", "head_warmup.steps=40", "head_warmup.window_steps=2",
+    run(tiny_cfg(tmp_path, tiny_encoder_headless, "run", "head_warmup.max_epochs=40",
                  "head_warmup.min_improvement=0.9", "schedule.stop_after_steps=1"))
     warm = json.loads((tmp_path / "run" / "metrics.jsonl").read_text().splitlines()[0])
-    # a 90% improvement between windows of 2 steps is impossible, so it stops at the first check
-    assert warm["phase"] == "head_warmup" and warm["converged"] and warm["steps"] == 4
-    assert len(warm["losses"]) == 4
+    # a 90% held-out improvement per epoch is impossible, so it stops after the second flat epoch, not the first
+    assert warm["phase"] == "head_warmup" and warm["converged"] and warm["epochs"] == 2
+    assert len(warm["heldout_losses"]) == 3 and len(warm["train_losses"]) == 2
+    assert warm["last_loss"] == min(warm["heldout_losses"]) and warm["seconds"] > 0

@@ -46,7 +46,8 @@ def write_pretrain(path: Path, status: str = "completed", steps: int = 6) -> Pat
     folder = RunFolder(path, "pretrain", {"encoder": {"name_or_path": "tiny"}, "schedule": {"max_steps": steps},
                                           "runtime": {"precision": "auto"}, "adapter": {"kind": "full"}}, [], 0)
     log = MetricsLog(path / "metrics.jsonl")
-    log.write(phase="head_warmup", steps=3, first_loss=5.0, last_loss=4.0, converged=True, losses=[5.0, 4.5, 4.0])
+    log.write(phase="head_warmup", steps=12, epochs=2, first_loss=5.0, last_loss=4.0, converged=True,
+              heldout_losses=[5.0, 4.5, 4.0])
     log.write(phase="start", step=0, heldout_loss_domain=4.0, heldout_loss_general=4.2)
     done = steps if status == "completed" else steps // 2
     for step in range(1, done + 1):

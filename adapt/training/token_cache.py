@@ -269,4 +269,3 @@ def sampled_texts(corpus_dir: str | Path, split: str, tokenizer, max_tokens: int
             while len(held) > 1 and used - held[0][2] >= max_tokens:
                 used -= heapq.heappop(held)[2]  # the sample is complete without the latest-placed document
     return [text for _, text, _ in sorted(held, reverse=True)]
-    return texts

@@ -23,6 +23,9 @@ class TaskConfig:
     label_field: str = "label"
     # Tokens per example, including the special tokens; longer texts are truncated.
     max_seq_len: int = 64
+    # A test split lacking one of the task's labels is refused (metrics average over every label); true scores
+    # such a label as F1 = 0, with a warning.
+    allow_missing_test_labels: bool = False
 
 
 @dataclass
@@ -69,7 +72,7 @@ class CompareJob:
     reference_arm: str = "base"
     task: TaskConfig = field(default_factory=TaskConfig)
     finetune: FinetuneConfig = field(default_factory=FinetuneConfig)
-    seeds: list[int] = field(default_factory=lambda: [0, 1, 2])
+    seeds: list[int] = field(default_factory=lambda: [0, 1, 2, 3, 4])
     # Add a TF-IDF (word 1-2-grams) + logistic-regression arm named "tfidf"; it is deterministic, so it runs once.
     tfidf_baseline: bool = True
     # Inverse regularisation strengths tried for the TF-IDF arm; the best dev macro-F1 wins (smallest on ties).

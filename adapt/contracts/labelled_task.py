@@ -186,8 +186,10 @@ def read_labelled_file(path: Path | str, text_field: str = "text", label_field: 
     return examples
 
 
-def read_task(task_dir: Path | str, text_field: str = "text", label_field: str = "label") -> Task:
-    """Read and check train/dev/test of a task folder."""
+def read_task(task_dir: Path | str, text_field: str = "text", label_field: str = "label",
+              allow_missing_test_labels: bool = False) -> Task:
+    """Read and check train/dev/test of a task folder. A test split lacking one of the training labels is
+    refused unless ``allow_missing_test_labels``."""
     task_dir = Path(task_dir)
     files = find_split_files(task_dir, "task.dir")
     pairs = {s: [(e.text, e.label) for e in read_labelled_file(files[s], text_field, label_field, "task")]
@@ -204,10 +206,14 @@ def read_task(task_dir: Path | str, text_field: str = "text", label_field: str =
             raise InputError(f"{files[s]}: label(s) {unseen[:5]} do not occur in {files['train'].name}; add training "
                              f"examples for them or remove them from {files[s].name}")
         missing = sorted(set(labels) - {lab for _, lab in pairs[s]})
+        if missing and s == "test" and not allow_missing_test_labels:
+            raise InputError(f"{files[s]}: no example of label {missing[0]!r}"
+                             + (f" (nor {missing[1:5]})" if len(missing) > 1 else "")
+                             + "; every metric averages over the task's labels, so the test set must hold each; "
+                             "add examples, or set task.allow_missing_test_labels=true to score it as F1 = 0")
         if missing:
-            log.warning("%s has no example of label(s) %s; macro-F1 averages over the labels present in gold "
-                        "or predictions",
-                        files[s], missing)
+            log.warning("%s has no example of label(s) %s; macro-F1 still averages over all %d task labels, "
+                        "counting F1 = 0 for a label without examples", files[s], missing, len(labels))
     splits = {s: Split(files[s], [t for t, _ in pairs[s]], [index[lab] for _, lab in pairs[s]]) for s in SPLITS}
     log.info("task %s: %d labels, sizes %s", task_dir, len(labels), {s: len(splits[s]) for s in SPLITS})
     return Task(dir=task_dir, labels=labels, **splits)

@@ -56,9 +56,11 @@ class ArmResult:
                 "seconds": round(self.seconds, 2), **self.details}
 
 
-def score(gold: list[int], pred: list[int]) -> tuple[float, float]:
-    """(accuracy, macro-F1) with scikit-learn; macro-F1 averages over labels in gold or predictions."""
-    return float(accuracy_score(gold, pred)), float(f1_score(gold, pred, average="macro", zero_division=0))
+def score(gold: list[int], pred: list[int], n_labels: int) -> tuple[float, float]:
+    """(accuracy, macro-F1) with scikit-learn; macro-F1 averages over the task's fixed label set 0..n_labels-1,
+    so every arm and split is averaged over the same labels."""
+    return float(accuracy_score(gold, pred)), float(f1_score(gold, pred, labels=list(range(n_labels)),
+                                                              average="macro", zero_division=0))
 
 
 def mean_pool(hidden: torch.Tensor, attention_mask: torch.Tensor) -> torch.Tensor:
@@ -184,7 +186,7 @@ def finetune(checkpoint: str, task: Task, cfg: FinetuneConfig, max_seq_len: int,
             loss_sum += loss.item() * len(rows)
             bar.update(1)
         dev_acc, dev_f1 = score(task.dev.label_ids, predict(model, tokenizer, dev_ids, cfg.batch_size * 2,
-                                                            device, autocast))
+                                                            device, autocast), len(task.labels))
         history.append({"epoch": epoch, "train_loss": loss_sum / len(order), "dev_accuracy": dev_acc,
                         "dev_macro_f1": dev_f1})
         log.info("%s seed %d epoch %d: train loss %.4f, dev accuracy %.3f, dev macro-F1 %.3f",
@@ -205,7 +207,7 @@ def _evaluate_selected(model, tokenizer, task: Task, cfg: FinetuneConfig, max_se
                        started: float) -> ArmResult:
     test_pred = predict(model, tokenizer, encode(tokenizer, task.test.texts, max_seq_len), cfg.batch_size * 2,
                         device, autocast)
-    test_acc, test_f1 = score(task.test.label_ids, test_pred)
+    test_acc, test_f1 = score(task.test.label_ids, test_pred, len(task.labels))
     chosen = history[selected - 1]
     return ArmResult(seed=seed, dev_accuracy=chosen["dev_accuracy"], dev_macro_f1=chosen["dev_macro_f1"],
                      test_accuracy=test_acc, test_macro_f1=test_f1, test_predictions=test_pred,
@@ -223,13 +225,13 @@ def tfidf_baseline(task: Task, c_values: list[float]) -> ArmResult:
     for c in sorted(c_values):
         clf = LogisticRegression(C=c, max_iter=5000)  # lbfgs: deterministic, no random state involved
         clf.fit(x_train, task.train.label_ids)
-        dev_acc, dev_f1 = score(task.dev.label_ids, clf.predict(x_dev).tolist())
+        dev_acc, dev_f1 = score(task.dev.label_ids, clf.predict(x_dev).tolist(), len(task.labels))
         log.info("tfidf C=%g: dev accuracy %.3f, dev macro-F1 %.3f", c, dev_acc, dev_f1)
         if best is None or dev_f1 > best[2]:
             best = (c, dev_acc, dev_f1, clf)
     c, dev_acc, dev_f1, clf = best
     test_pred = [int(v) for v in clf.predict(x_test)]
-    test_acc, test_f1 = score(task.test.label_ids, test_pred)
+    test_acc, test_f1 = score(task.test.label_ids, test_pred, len(task.labels))
     return ArmResult(seed=None, dev_accuracy=dev_acc, dev_macro_f1=dev_f1, test_accuracy=test_acc,
                      test_macro_f1=test_f1, test_predictions=test_pred, test_gold=list(task.test.label_ids),
                      seconds=time.perf_counter() - started,

@@ -1,9 +1,11 @@
-"""Statistics for comparing fine-tuned arms: seed summaries, paired tests over test examples, verdict wording.
+"""Statistics for comparing fine-tuned arms: seed summaries, the seed-aware primary test, secondary paired tests
+over test examples, Holm's correction over arms, verdict wording.
 
 Predictions come as integer arrays of shape (S, n): S fine-tuning seeds × n test examples, the same seeds and
 examples for both arms, so every test is paired (Dror et al. 2018 recommend paired tests for this setting).
 
 - ``summarize``: mean, sd and a t-interval over seeds (seed-to-seed spread; Dodge et al. 2020).
+- ``seed_aware_difference``: the primary test, its variance from seeds and from test examples (see there).
 - ``paired_bootstrap``: resample test examples with replacement; per resample average each arm's metric over
   seeds and take the difference -> percentile CI and one-sided p-values (Berg-Kirkpatrick et al. 2012, §2:
   p = share of resampled differences at least twice the observed one).
@@ -12,8 +14,9 @@ examples for both arms, so every test is paired (Dror et al. 2018 recommend pair
   per-example correctness pooled over seeds.
 - ``mcnemar_exact``: exact binomial McNemar test on the discordant pairs.
 
-Macro-F1 follows scikit-learn's ``f1_score(average="macro")``: the mean over labels that occur in the gold
-labels or the predictions, F1 = 0 where a label has no true positive.
+Macro-F1 follows scikit-learn's ``f1_score(labels=<the task's labels>, average="macro", zero_division=0)``: the
+mean over the task's fixed label set, so every arm is averaged over the same labels. The secondary tests keep the
+seeds fixed: they measure test-set sampling only.
 """
 
 from __future__ import annotations
@@ -68,17 +71,17 @@ def _indicators(gold: np.ndarray, pred: np.ndarray, n_classes: int) -> tuple[np.
 
 
 def macro_f1_from_counts(tp: np.ndarray, fp: np.ndarray, fn: np.ndarray) -> np.ndarray:
-    """Macro-F1 from per-class counts of shape (..., C), averaged over classes with tp + fp + fn > 0."""
+    """Macro-F1 from per-class counts of shape (..., C), averaged over all C labels of the task (F1 = 0 where a
+    label has no true positive), as scikit-learn's f1_score(labels=range(C), average="macro", zero_division=0)."""
     denom = 2 * tp + fp + fn
-    present = denom > 0
-    f1 = np.divide(2 * tp, denom, out=np.zeros_like(denom, dtype=float), where=present)
-    return f1.sum(axis=-1) / np.maximum(present.sum(axis=-1), 1)
+    f1 = np.divide(2 * tp, denom, out=np.zeros_like(denom, dtype=float), where=denom > 0)
+    return f1.sum(axis=-1) / tp.shape[-1]
 
 
 class _PairedCounts:
     """Per-seed, per-example indicators of both arms; metric values for example weightings in one matrix product."""
 
-    def __init__(self, gold, preds_a, preds_b):
+    def __init__(self, gold, preds_a, preds_b, n_classes: int | None = None):
         self.gold = np.asarray(gold, dtype=np.int64)
         n = self.gold.size
         if n == 0:
@@ -87,7 +90,10 @@ class _PairedCounts:
         if self.a.shape != self.b.shape:
             raise ValueError(f"both arms need the same seeds: shapes {self.a.shape} and {self.b.shape}")
         self.n, self.seeds = n, self.a.shape[0]
-        c = int(max(self.gold.max(), self.a.max(), self.b.max())) + 1
+        seen = int(max(self.gold.max(), self.a.max(), self.b.max())) + 1
+        if n_classes is not None and seen > n_classes:
+            raise ValueError(f"label id {seen - 1} is outside the task's {n_classes} labels")
+        c = n_classes or seen  # the task's label set: every metric averages over the same labels
         self.ind_a = [_indicators(self.gold, self.a[s], c) for s in range(self.seeds)]
         self.ind_b = [_indicators(self.gold, self.b[s], c) for s in range(self.seeds)]
 
@@ -100,6 +106,16 @@ class _PairedCounts:
             f1 += macro_f1_from_counts(weights @ tp, weights @ fp, weights @ fn)
         return {"accuracy": acc / len(ind), "macro_f1": f1 / len(ind)}
 
+    def per_seed_differences(self) -> dict[str, np.ndarray]:
+        """(S,) difference a − b of each seed's metric on the whole test set."""
+        w = np.ones((1, self.n))
+        out = {m: np.zeros(self.seeds) for m in METRICS}
+        for s, (ia, ib) in enumerate(zip(self.ind_a, self.ind_b)):
+            ma, mb = self.metrics(w, [ia]), self.metrics(w, [ib])
+            for m in METRICS:
+                out[m][s] = ma[m][0] - mb[m][0]
+        return out
+
     def observed(self) -> dict[str, float]:
         w = np.ones((1, self.n))
         ma, mb = self.metrics(w, self.ind_a), self.metrics(w, self.ind_b)
@@ -107,13 +123,13 @@ class _PairedCounts:
 
 
 def paired_bootstrap(gold, preds_a, preds_b, n_resamples: int, rng: np.random.Generator,
-                     confidence: float = 0.95) -> dict[str, dict[str, float]]:
+                     confidence: float = 0.95, n_classes: int | None = None) -> dict[str, dict[str, float]]:
     """Difference (a − b) of seed-averaged accuracy and macro-F1 with a percentile CI over resampled examples.
 
     ``p_better`` tests "a better than b" and ``p_worse`` "a worse than b" (each one-sided, shifted-null form of
     Berg-Kirkpatrick et al. 2012, §2), with the usual +1 in numerator and denominator.
     """
-    pc = _PairedCounts(gold, preds_a, preds_b)
+    pc = _PairedCounts(gold, preds_a, preds_b, n_classes)
     observed = pc.observed()
     diffs: dict[str, list[np.ndarray]] = {m: [] for m in METRICS}
     for start in range(0, n_resamples, _CHUNK):
@@ -138,6 +154,72 @@ def paired_bootstrap(gold, preds_a, preds_b, n_resamples: int, rng: np.random.Ge
     return out
 
 
+POWER = 0.8  # the power at which the smallest detectable difference is stated
+
+
+def seed_aware_difference(gold, preds_a, preds_b, n_classes: int | None, n_resamples: int,
+                          rng: np.random.Generator, confidence: float = 0.95) -> dict[str, dict[str, float]]:
+    """The primary test: difference (a − b) of the seed-averaged metric with an interval that covers both
+    seed-to-seed training variance and test-set sampling.
+
+    The arms share their seeds (seed s fixes the classifier head's initialisation and the data order of both), so
+    differences are paired by seed. Variance components of the seed-averaged difference D (a random seed effect
+    plus test-example sampling, as in a mixed model with seeds as a random factor):
+    - seeds: var(d_s) / S over the per-seed differences d_s on the whole test set (ddof 1; Dodge et al. 2020
+      show this spread is of the size of many reported gains). It also holds the seed-specific part of the test
+      noise, so the total errs on the wide side.
+    - test examples: the variance of D over a paired bootstrap of the test examples (the same resampled examples
+      for every seed and both arms; Efron & Tibshirani 1993, ch. 6).
+    The interval is D ± t(df) · SE with SE² the sum and df from Welch–Satterthwaite (Satterthwaite 1946) with
+    S − 1 and n − 1 degrees of freedom for the two parts, so that 3 or 5 seeds give the wide t quantiles they
+    need; ``p_value`` is two-sided. ``min_detectable`` is the smallest difference found with probability
+    ``POWER`` at this level: (t(1 − α/2) + t(POWER)) · SE (the usual normal-approximation power formula with t
+    quantiles, common practice).
+    """
+    pc = _PairedCounts(gold, preds_a, preds_b, n_classes)
+    observed, per_seed = pc.observed(), pc.per_seed_differences()
+    boot: dict[str, list[np.ndarray]] = {m: [] for m in METRICS}
+    for start in range(0, n_resamples, _CHUNK):
+        size = min(_CHUNK, n_resamples - start)
+        idx = rng.integers(0, pc.n, size=(size, pc.n))
+        w = np.zeros((size, pc.n))
+        np.add.at(w, (np.arange(size)[:, None], idx), 1.0)
+        ma, mb = pc.metrics(w, pc.ind_a), pc.metrics(w, pc.ind_b)
+        for m in METRICS:
+            boot[m].append(ma[m] - mb[m])
+    alpha, out = 1 - confidence, {}
+    for m in METRICS:
+        d = per_seed[m]
+        seed_var = float(d.var(ddof=1) / d.size) if d.size >= 2 else 0.0
+        example_var = float(np.concatenate(boot[m]).var(ddof=1)) if n_resamples >= 2 else 0.0
+        total = seed_var + example_var
+        parts = (seed_var ** 2 / (d.size - 1) if d.size >= 2 else 0.0) + example_var ** 2 / max(pc.n - 1, 1)
+        df = total ** 2 / parts if parts > 0 else float(max(pc.n - 1, 1))
+        se, diff = math.sqrt(total), observed[m]
+        t = float(stats.t.ppf(1 - alpha / 2, df))
+        if se > 0:
+            p = float(2 * stats.t.sf(abs(diff) / se, df))
+        else:
+            p = 1.0 if diff == 0 else 0.0
+        out[m] = {"difference": diff, "ci_low": diff - t * se, "ci_high": diff + t * se, "p_value": p,
+                  "se": se, "df": df, "seed_variance": seed_var, "example_variance": example_var,
+                  "min_detectable": (t + float(stats.t.ppf(POWER, df))) * se, "power": POWER,
+                  "per_seed": d.tolist(), "resamples": n_resamples}
+    return out
+
+
+def holm(p_values: list[float]) -> list[float]:
+    """Holm's step-down adjusted p-values (Holm 1979), in the input order."""
+    p = np.asarray(p_values, dtype=float)
+    order = np.argsort(p, kind="stable")
+    adjusted = np.empty_like(p)
+    running = 0.0
+    for rank, i in enumerate(order):
+        running = max(running, min(1.0, (p.size - rank) * p[i]))
+        adjusted[i] = running
+    return adjusted.tolist()
+
+
 def _sign_patterns(n: int, n_resamples: int, rng: np.random.Generator) -> tuple[np.ndarray, bool]:
     """Rows of swap indicators (1 = swap the arms for that example): all 2^n when that is few enough."""
     if n < 63 and 2 ** n <= n_resamples:
@@ -145,15 +227,15 @@ def _sign_patterns(n: int, n_resamples: int, rng: np.random.Generator) -> tuple[
     return rng.integers(0, 2, size=(n_resamples, n)).astype(float), False
 
 
-def paired_permutation(gold, preds_a, preds_b, n_resamples: int,
-                       rng: np.random.Generator) -> dict[str, dict[str, float]]:
+def paired_permutation(gold, preds_a, preds_b, n_resamples: int, rng: np.random.Generator,
+                       n_classes: int | None = None) -> dict[str, dict[str, float]]:
     """Paired permutation test of the seed-averaged difference (a − b) in accuracy and macro-F1.
 
     Under the null hypothesis the two arms are exchangeable per example, so each example's predictions (all
     seeds) are swapped between the arms at random. p-values count null statistics at least as extreme as the
     observed one, with scipy.stats.permutation_test's tie tolerance and +1 adjustment for random resamples.
     """
-    pc = _PairedCounts(gold, preds_a, preds_b)
+    pc = _PairedCounts(gold, preds_a, preds_b, n_classes)
     observed = pc.observed()
     swaps, exact = _sign_patterns(pc.n, n_resamples, rng)
     null: dict[str, list[np.ndarray]] = {m: [] for m in METRICS}
@@ -210,19 +292,22 @@ def majority_vote(preds) -> np.ndarray:
 
 def compare_pair(gold, preds_a, preds_b, seed_metrics_a: dict[str, list[float]],
                  seed_metrics_b: dict[str, list[float]], confidence: float = 0.95, bootstrap_resamples: int = 2000,
-                 permutation_resamples: int = 5000, seed: int = 0) -> dict:
-    """All paired tests of arm a against arm b; ``seed_metrics_*`` are per-seed test metrics in seed order."""
+                 permutation_resamples: int = 5000, seed: int = 0, n_classes: int | None = None) -> dict:
+    """All paired tests of arm a against arm b; ``seed_metrics_*`` are per-seed test metrics in seed order.
+    ``primary`` (seed_aware_difference) decides the verdict; the others are secondary and seeds stay fixed in them.
+    """
     a = _as_runs(preds_a, len(gold))
     b = _as_runs(preds_b, len(gold))
     gold = np.asarray(gold, dtype=np.int64)
-    boot_rng, perm_rng = (np.random.default_rng(s) for s in np.random.SeedSequence(seed).spawn(2))
+    boot_rng, perm_rng, primary_rng = (np.random.default_rng(s) for s in np.random.SeedSequence(seed).spawn(3))
     vote_a, vote_b = majority_vote(a), majority_vote(b)
     return {
         "n_examples": int(gold.size),
         "n_seeds": int(a.shape[0]),
         "confidence": confidence,
-        "bootstrap": paired_bootstrap(gold, a, b, bootstrap_resamples, boot_rng, confidence),
-        "permutation": paired_permutation(gold, a, b, permutation_resamples, perm_rng),
+        "primary": seed_aware_difference(gold, a, b, n_classes, bootstrap_resamples, primary_rng, confidence),
+        "bootstrap": paired_bootstrap(gold, a, b, bootstrap_resamples, boot_rng, confidence, n_classes),
+        "permutation": paired_permutation(gold, a, b, permutation_resamples, perm_rng, n_classes),
         "mcnemar_majority_vote": mcnemar_exact(vote_a == gold, vote_b == gold),
         "mcnemar_per_seed": [mcnemar_exact(a[s] == gold, b[s] == gold) for s in range(a.shape[0])],
         # same-seed differences: how much of the effect survives seed-to-seed variation
@@ -231,39 +316,34 @@ def compare_pair(gold, preds_a, preds_b, seed_metrics_a: dict[str, list[float]],
     }
 
 
-def verdict(pair: dict, arm: str, reference: str, metric: str = "macro_f1", min_seeds: int = 5) -> dict:
-    """Plain-words outcome from the paired-bootstrap CI of ``metric``, with the other tests and cautions."""
-    boot = pair["bootstrap"][metric]
+def verdict(pair: dict, arm: str, reference: str, metric: str = "macro_f1", min_seeds: int = 5,
+            adjusted_p: float | None = None, n_compared: int = 1) -> dict:
+    """Plain-words outcome from the seed-aware primary test of ``metric``: "better" or "worse" only when its
+    p-value, Holm-adjusted over the ``n_compared`` arms tested against the reference (``adjusted_p``), is below
+    1 − confidence; the interval shown is the unadjusted one."""
+    prim = pair["primary"][metric]
     conf = round(100 * pair["confidence"])
+    alpha = 1 - pair["confidence"]
     name = METRIC_NAMES[metric]
-    if boot["ci_low"] > 0:
+    p_adj = prim["p_value"] if adjusted_p is None else adjusted_p
+    if p_adj < alpha and prim["difference"] > 0:
         outcome = f"{arm} better"
-    elif boot["ci_high"] < 0:
+    elif p_adj < alpha and prim["difference"] < 0:
         outcome = f"{arm} worse"
     else:
         outcome = "no detectable difference"
-    perm = pair["permutation"][metric]
-    direction = "p_worse" if boot["difference"] < 0 else "p_better"
-    text = (f"{outcome} ({arm} vs {reference}): {name} {boot['difference']:+.3f} "
-            f"({conf}% CI {boot['ci_low']:+.3f} to {boot['ci_high']:+.3f}, paired bootstrap over "
-            f"{pair['n_examples']} test examples); permutation p={perm[direction]:.3g} (one-sided, {arm} "
-            f"{direction[2:]}); "
-            f"McNemar p={pair['mcnemar_majority_vote']['p_value']:.3g}; {pair['n_seeds']} seed(s)")
+    holm_note = f", Holm-adjusted over {n_compared} arms p={p_adj:.3g}" if n_compared > 1 else ""
+    text = (f"{outcome} ({arm} vs {reference}): {name} {prim['difference']:+.3f} "
+            f"({conf}% CI {prim['ci_low']:+.3f} to {prim['ci_high']:+.3f} over {pair['n_seeds']} seed(s) and "
+            f"{pair['n_examples']} test examples; p={prim['p_value']:.3g}{holm_note}); smallest difference this "
+            f"design detects with {prim['power']:.0%} power: {prim['min_detectable']:.3f}")
     cautions = []
     if pair["n_seeds"] < min_seeds:
         cautions.append(f"only {pair['n_seeds']} seed(s): fine-tuning results vary a lot with the seed "
                         f"(Dodge et al. 2020); rerun with {min_seeds} or more seeds before relying on this")
     if outcome == "no detectable difference":
         cautions.append("not evidence that the arms are equal: differences inside the CI cannot be ruled out")
-    else:
-        alpha = 1 - pair["confidence"]
-        if perm[direction] > alpha / 2:
-            cautions.append(f"the permutation test does not confirm it at the same level (p={perm[direction]:.3g})")
-        diffs = pair["seed_differences"][metric]
-        if diffs["n"] >= 2 and diffs["ci_low"] is not None and diffs["ci_low"] <= 0 <= diffs["ci_high"]:
-            cautions.append(f"across seeds the same-seed difference is {diffs['mean']:+.3f} with a {conf}% "
-                            f"t-interval from {diffs['ci_low']:+.3f} to {diffs['ci_high']:+.3f}, which includes 0: "
-                            "the seed-to-seed spread is large compared with the effect")
     return {"pair": f"{arm} vs {reference}", "outcome": outcome, "metric": metric,
-            "difference": boot["difference"], "ci_low": boot["ci_low"], "ci_high": boot["ci_high"],
+            "difference": prim["difference"], "ci_low": prim["ci_low"], "ci_high": prim["ci_high"],
+            "p_value": prim["p_value"], "p_adjusted": p_adj, "min_detectable": prim["min_detectable"],
             "confidence": pair["confidence"], "text": text, "cautions": cautions}

@@ -73,8 +73,30 @@ def _arm_record(checkpoint: str, runs: list[ArmResult], confidence: float) -> di
     return rec
 
 
+# Sizes below which a verdict gets a caution (common practice: a test set of under ~100 examples, a dev set of
+# under ~50 or a class with under ~10 test examples gives intervals too wide, or an epoch choice too noisy, to
+# rely on)
+MIN_TEST, MIN_DEV, MIN_CLASS = 100, 50, 10
+
+
+def _size_cautions(task: Task) -> list[str]:
+    from collections import Counter
+
+    out = []
+    if len(task.test.label_ids) < MIN_TEST:
+        out.append(f"only {len(task.test.label_ids)} test examples (under {MIN_TEST}): intervals are wide")
+    if len(task.dev.label_ids) < MIN_DEV:
+        out.append(f"only {len(task.dev.label_ids)} dev examples (under {MIN_DEV}): the epoch choice is noisy")
+    counts = Counter(task.test.label_ids)
+    small = [task.labels[i] for i in range(len(task.labels)) if counts.get(i, 0) < MIN_CLASS]
+    if small:
+        out.append(f"label(s) {', '.join(small[:5])} have under {MIN_CLASS} test examples: their F1, and "
+                   "macro-F1, move a lot with a few predictions")
+    return out
+
+
 def _tests(cfg: CompareJob, task: Task, results: dict[str, list[ArmResult]]) -> tuple[dict, dict]:
-    from adapt.evaluation.significance import compare_pair, verdict
+    from adapt.evaluation.significance import compare_pair, holm, verdict
 
     sig = cfg.significance
     ref = results[cfg.reference_arm]
@@ -86,10 +108,16 @@ def _tests(cfg: CompareJob, task: Task, results: dict[str, list[ArmResult]]) -> 
                             {m: [getattr(r, f"test_{m}") for r in runs] for m in METRICS},
                             {m: [getattr(r, f"test_{m}") for r in ref] for m in METRICS},
                             confidence=sig.confidence, bootstrap_resamples=sig.bootstrap_resamples,
-                            permutation_resamples=sig.permutation_resamples, seed=sig.seed)
-        key = f"{arm} vs {cfg.reference_arm}"
-        tests[key] = {"arm": arm, "reference": cfg.reference_arm, **pair}
-        verdicts[key] = verdict(pair, arm, cfg.reference_arm, sig.primary_metric, sig.min_seeds)
+                            permutation_resamples=sig.permutation_resamples, seed=sig.seed,
+                            n_classes=len(task.labels))
+        tests[f"{arm} vs {cfg.reference_arm}"] = {"arm": arm, "reference": cfg.reference_arm, **pair}
+    # Holm's correction over the arms tested against the reference (their primary tests)
+    adjusted = holm([t["primary"][sig.primary_metric]["p_value"] for t in tests.values()]) if tests else []
+    sizes = _size_cautions(task)
+    for (key, t), p_adj in zip(tests.items(), adjusted):
+        verdicts[key] = verdict(t, t["arm"], cfg.reference_arm, sig.primary_metric, sig.min_seeds,
+                                adjusted_p=p_adj, n_compared=len(tests))
+        verdicts[key]["cautions"] += sizes
         log.info("%s", verdicts[key]["text"])
     return tests, verdicts
 
@@ -139,7 +167,19 @@ def render_markdown(doc: dict) -> str:
         a, f = rec["test_accuracy"], rec["test_macro_f1"]
         out.append(f"| {arm} | {_pm(a)} | {_ci(a)} | {_pm(f)} | {_ci(f)} | {len(rec['per_seed'])} |")
     out += ["", "CIs over seeds are t-intervals (too few seeds give wide or no intervals).", "",
-            "## Paired tests on the test examples", ""]
+            "## Primary test: seeds and test examples", "",
+           "The verdict's test: the seed-averaged difference with a t-interval whose variance adds the spread "
+           "over fine-tuning seeds (paired by seed) and a bootstrap over test examples (Welch–Satterthwaite "
+           "degrees of freedom); p two-sided, Holm-adjusted over the arms compared with the reference.", "",
+           f"| pair | metric | difference | {conf}% CI | p | SE from seeds | SE from examples | smallest "
+           "detectable (80% power) |", "|---|---|---|---|---|---|---|---|"]
+    for key, pair in doc["tests"].items():
+        for m in METRICS:
+            q = pair["primary"][m]
+            out.append(f"| {key} | {METRIC_NAMES[m]} | {q['difference']:+.3f} | {q['ci_low']:+.3f} to "
+                       f"{q['ci_high']:+.3f} | {q['p_value']:.3g} | {q['seed_variance'] ** 0.5:.3f} | "
+                       f"{q['example_variance'] ** 0.5:.3f} | {q['min_detectable']:.3f} |")
+    out += ["", "## Secondary tests on the test examples (seeds fixed: test-set sampling only)", ""]
     for key, pair in doc["tests"].items():
         out += [f"### {key}", "", f"| metric | difference | {conf}% bootstrap CI | bootstrap p (better) | "
                 f"permutation p (better) | permutation p (worse) |", "|---|---|---|---|---|---|"]
@@ -148,7 +188,8 @@ def render_markdown(doc: dict) -> str:
             out.append(f"| {METRIC_NAMES[m]} | {b['difference']:+.3f} | {b['ci_low']:+.3f} to {b['ci_high']:+.3f} "
                        f"| {b['p_better']:.3g} | {p['p_better']:.3g} | {p['p_worse']:.3g} |")
         mc = pair["mcnemar_majority_vote"]
-        out += ["", f"McNemar exact test on majority-vote correctness: {mc['only_a_correct']} examples only "
+        out += ["", f"McNemar exact test (it tests accuracy of the majority vote over seeds, not macro-F1): "
+                f"{mc['only_a_correct']} examples only "
                 f"{pair['arm']} got right, {mc['only_b_correct']} only {pair['reference']}; p = {mc['p_value']:.3g}. "
                 "Per seed: "
                 + ", ".join(f"{x['p_value']:.3g}" for x in pair["mcnemar_per_seed"]) + ".", ""]
@@ -164,7 +205,7 @@ def render_markdown(doc: dict) -> str:
 
 def run(cfg: CompareJob) -> dict:
     """Fine-tune and evaluate every arm × seed, run the paired tests, write the outputs."""
-    task = read_task(cfg.task.dir, cfg.task.text_field, cfg.task.label_field)
+    task = read_task(cfg.task.dir, cfg.task.text_field, cfg.task.label_field, cfg.task.allow_missing_test_labels)
     checkpoints = {arm: resolve_checkpoint(arm, cfg.arms[arm]) for arm in _ordered_arms(cfg)}
     # imports torch: only after the inputs were checked
     from adapt.common.runtime import apply_threads, resolve_device, resolve_precision

@@ -188,5 +188,23 @@ def test_tfidf_baseline_matches_direct_scikit_learn_fit(tmp_path):
 def test_score_worked_example():
     # scikit-learn f1_score documentation example: y_true=[0,1,2,0,1,2], y_pred=[0,2,1,0,0,1],
     # macro-F1 = 0.26666..., accuracy 2/6
-    acc, f1 = score([0, 1, 2, 0, 1, 2], [0, 2, 1, 0, 0, 1])
+    acc, f1 = score([0, 1, 2, 0, 1, 2], [0, 2, 1, 0, 0, 1], 3)
     assert acc == pytest.approx(1 / 3) and f1 == pytest.approx(0.26666, abs=1e-4)
+
+
+def test_a_test_set_without_a_label_is_refused_unless_allowed(tmp_path, caplog):
+    # every metric averages over the task's label set: a test set lacking a label cannot measure it
+    folder = make_task(tmp_path / "task")
+    test = folder / "test.jsonl"
+    rows = [json.loads(line) for line in test.read_text().splitlines()]
+    dropped = rows[0]["label"]
+    test.write_text("".join(json.dumps(r) + "\n" for r in rows if r["label"] != dropped))
+    before = test.read_bytes()
+    with pytest.raises(InputError) as err:
+        read_task(folder)
+    message = str(err.value)
+    assert str(test) in message and repr(dropped) in message and "allow_missing_test_labels" in message
+    assert "\n" not in message and test.read_bytes() == before
+    with caplog.at_level("WARNING"):
+        task = read_task(folder, allow_missing_test_labels=True)
+    assert dropped in task.labels and any("F1 = 0" in r.getMessage() for r in caplog.records)

@@ -122,15 +122,9 @@ class _PairedCounts:
         return {m: float(ma[m][0] - mb[m][0]) for m in METRICS}
 
 
-def paired_bootstrap(gold, preds_a, preds_b, n_resamples: int, rng: np.random.Generator,
-                     confidence: float = 0.95, n_classes: int | None = None) -> dict[str, dict[str, float]]:
-    """Difference (a − b) of seed-averaged accuracy and macro-F1 with a percentile CI over resampled examples.
-
-    ``p_better`` tests "a better than b" and ``p_worse`` "a worse than b" (each one-sided, shifted-null form of
-    Berg-Kirkpatrick et al. 2012, §2), with the usual +1 in numerator and denominator.
-    """
-    pc = _PairedCounts(gold, preds_a, preds_b, n_classes)
-    observed = pc.observed()
+def _example_bootstrap(pc: _PairedCounts, n_resamples: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
+    """(R,) differences a − b of the seed-averaged metrics over test examples resampled with replacement (the
+    same examples for every seed and both arms)."""
     diffs: dict[str, list[np.ndarray]] = {m: [] for m in METRICS}
     for start in range(0, n_resamples, _CHUNK):
         size = min(_CHUNK, n_resamples - start)
@@ -141,10 +135,23 @@ def paired_bootstrap(gold, preds_a, preds_b, n_resamples: int, rng: np.random.Ge
         ma, mb = pc.metrics(w, pc.ind_a), pc.metrics(w, pc.ind_b)
         for m in METRICS:
             diffs[m].append(ma[m] - mb[m])
+    return {m: np.concatenate(d) if d else np.zeros(0) for m, d in diffs.items()}
+
+
+def paired_bootstrap(gold, preds_a, preds_b, n_resamples: int, rng: np.random.Generator,
+                     confidence: float = 0.95, n_classes: int | None = None) -> dict[str, dict[str, float]]:
+    """Difference (a − b) of seed-averaged accuracy and macro-F1 with a percentile CI over resampled examples.
+
+    ``p_better`` tests "a better than b" and ``p_worse`` "a worse than b" (each one-sided, shifted-null form of
+    Berg-Kirkpatrick et al. 2012, §2), with the usual +1 in numerator and denominator.
+    """
+    pc = _PairedCounts(gold, preds_a, preds_b, n_classes)
+    observed = pc.observed()
+    diffs = _example_bootstrap(pc, n_resamples, rng)
     alpha = 1 - confidence
     out = {}
     for m in METRICS:
-        d = np.concatenate(diffs[m])
+        d = diffs[m]
         low, high = np.percentile(d, [100 * alpha / 2, 100 * (1 - alpha / 2)])
         obs = observed[m]
         out[m] = {"difference": obs, "ci_low": float(low), "ci_high": float(high),
@@ -178,20 +185,12 @@ def seed_aware_difference(gold, preds_a, preds_b, n_classes: int | None, n_resam
     """
     pc = _PairedCounts(gold, preds_a, preds_b, n_classes)
     observed, per_seed = pc.observed(), pc.per_seed_differences()
-    boot: dict[str, list[np.ndarray]] = {m: [] for m in METRICS}
-    for start in range(0, n_resamples, _CHUNK):
-        size = min(_CHUNK, n_resamples - start)
-        idx = rng.integers(0, pc.n, size=(size, pc.n))
-        w = np.zeros((size, pc.n))
-        np.add.at(w, (np.arange(size)[:, None], idx), 1.0)
-        ma, mb = pc.metrics(w, pc.ind_a), pc.metrics(w, pc.ind_b)
-        for m in METRICS:
-            boot[m].append(ma[m] - mb[m])
+    boot = _example_bootstrap(pc, n_resamples, rng)
     alpha, out = 1 - confidence, {}
     for m in METRICS:
         d = per_seed[m]
         seed_var = float(d.var(ddof=1) / d.size) if d.size >= 2 else 0.0
-        example_var = float(np.concatenate(boot[m]).var(ddof=1)) if n_resamples >= 2 else 0.0
+        example_var = float(boot[m].var(ddof=1)) if n_resamples >= 2 else 0.0
         total = seed_var + example_var
         parts = (seed_var ** 2 / (d.size - 1) if d.size >= 2 else 0.0) + example_var ** 2 / max(pc.n - 1, 1)
         df = total ** 2 / parts if parts > 0 else float(max(pc.n - 1, 1))

@@ -1,67 +1,266 @@
-"""Training throughput of one MLM step on the packaged encoder: a plain library step vs ours.
+"""MLM training speed near the machine's limit: this project's pretrain step vs a plain library loop, in one run.
 
-plain: AutoModelForMaskedLM(labels=...) computes the vocabulary logits at every position, fp32, default AdamW.
-ours:  MaskedOnlyMlm (head only at masked positions) and fused AdamW, as in adapt.pretrain; fp32 and bf16.
-Prints JSON: tokens/s per variant and the speed-up over the plain step. Usage: python benchmarks/pretrain_speed.py
+Both loops train the packaged encoder (adapt.training.encoder.load_mlm, default EncoderConfig; its missing MLM head
+is drawn from a fixed seed, so both start from the same weights) on the invented legal samples
+(corpora_samples/legal), batch 16 x 128 tokens, fp32, the same learning-rate schedule (linear warm-up and decay),
+gradient clipping at 1.0, and the same number of training tokens. Their steps alternate, so load from other jobs on
+a shared machine falls on both alike.
+
+ours:  adapt.stages.pretrain._optimizer_step, the loop's own step: packed sequences (adapt.training.packing),
+       MaskingPlan, MaskedOnlyMlm (head and cross-entropy only at masked positions), build_adamw (fused AdamW).
+plain: fixed-length chunks of 128 tokens, transformers' DataCollatorForLanguageModeling (mlm_probability 0.15),
+       model(**batch) computing vocabulary logits at every position, torch.optim.AdamW with its defaults.
+
+Also measured: the fp32 matmul peak (best of a few large square products; bf16 only where the CPU computes bf16
+natively), each loop's model-FLOPs utilisation, the held-out MLM loss of both on the same fixed masked sequences,
+and speed-only variants of our step: eager attention instead of SDPA, and torch.compile.
+Prints JSON. Usage: python benchmarks/pretrain_speed.py [--steps 24] [--variant-steps 4] [--no-compile]
 """
 
 from __future__ import annotations
 
+import argparse
 import contextlib
 import json
+import os
+import subprocess
 import time
+from pathlib import Path
 
+import numpy as np
 import torch
 import transformers
+from accelerate import Accelerator
+from transformers import DataCollatorForLanguageModeling, get_scheduler
 
+from adapt.common.runtime import cpu_bf16_support
 from adapt.config.common import EncoderConfig
+from adapt.config.pretrain import PretrainJob, ScheduleConfig
+from adapt.stages.pretrain import RunData, _optimizer_step
+from adapt.training.adapters import build_adapter, count_trainable
 from adapt.training.encoder import load_mlm, load_tokenizer
-from adapt.training.mlm_loss import MaskedOnlyMlm, MaskingPlan
+from adapt.training.masking import IGNORE_INDEX
+from adapt.training.mlm_loss import FixedMaskEval, MaskedOnlyMlm, MaskingPlan
+from adapt.training.optimizer import build_adamw
+from adapt.training.packing import BatchCursor, PackedSequences, SequencePacker
+from adapt.training.resume import Training
+from adapt.training.token_cache import word_starts
 
-BATCH, SEQ, STEPS, WARM = 16, 128, 6, 2
+SAMPLES = Path(__file__).resolve().parents[1] / "corpora_samples" / "legal"
+BATCH, SEQ, SEED, HELDOUT_DOCS, HELDOUT_SEQS = 16, 128, 0, 40, 48
+WARM_STEPS = 2  # untimed (they still train: both loops see the same tokens)
 
 
-def measure(step_fn) -> float:
-    for _ in range(WARM):
-        step_fn()
-    start = time.perf_counter()
-    for _ in range(STEPS):
-        step_fn()
-    return BATCH * SEQ * STEPS / (time.perf_counter() - start)
+def machine() -> dict:
+    lscpu = subprocess.run(["lscpu"], capture_output=True, text=True, check=False).stdout
+    model = next((ln.split(":", 1)[1].strip() for ln in lscpu.splitlines() if ln.startswith("Model name")), "")
+    return {"cpu": model, "cpu_capability": torch.backends.cpu.get_cpu_capability(), "torch": torch.__version__,
+            "transformers": transformers.__version__, "threads": torch.get_num_threads(), "cores": os.cpu_count(),
+            "bf16_native": cpu_bf16_support().native, "load_average_start": list(os.getloadavg())}
+
+
+def matmul_peak(dtype: torch.dtype, size: int = 2048, repeats: int = 5) -> float:
+    """Best-of-``repeats`` GFLOP/s of a size² x size² product at the training thread count."""
+    g = torch.Generator().manual_seed(0)
+    a, b = (torch.randn(size, size, generator=g).to(dtype) for _ in range(2))
+    a @ b  # warm-up
+    best = min(_seconds(lambda: a @ b) for _ in range(repeats))
+    return 2 * size ** 3 / best / 1e9
+
+
+def _seconds(fn) -> float:
+    t0 = time.perf_counter()
+    fn()
+    return time.perf_counter() - t0
+
+
+def split_texts() -> tuple[list[str], list[str]]:
+    texts = [json.loads(line)["text"] for path in sorted(SAMPLES.glob("*.jsonl"))
+             for line in path.read_text(encoding="utf-8").splitlines() if line.strip()]
+    order = np.random.default_rng(SEED).permutation(len(texts))
+    return [texts[i] for i in order[HELDOUT_DOCS:]], [texts[i] for i in order[:HELDOUT_DOCS]]
+
+
+def packed(tokenizer, texts: list[str]) -> PackedSequences:
+    """Full packed rows only (adapt.training.packing's rule; the padded last row is dropped)."""
+    enc = tokenizer(texts, add_special_tokens=False, return_attention_mask=False, return_token_type_ids=False)
+    packer = SequencePacker(SEQ, tokenizer.cls_token_id, tokenizer.sep_token_id, tokenizer.pad_token_id)
+    rows = packer.add(enc["input_ids"], word_starts(enc))
+    return PackedSequences(rows.ids, SEQ, len(texts), rows.starts)
+
+
+def plain_chunks(tokenizer, texts: list[str]) -> torch.Tensor:
+    """The common recipe: each document with its special tokens, concatenated, cut into 128-token chunks."""
+    ids = [i for row in tokenizer(texts, return_attention_mask=False, return_token_type_ids=False)["input_ids"]
+           for i in row]
+    n = len(ids) // SEQ
+    return torch.tensor(ids[:n * SEQ]).view(n, SEQ)
+
+
+class CountingMlm(torch.nn.Module):
+    """MaskedOnlyMlm that also counts the positions the decoder runs at (for the FLOP count)."""
+
+    def __init__(self, model):
+        super().__init__()
+        self.inner = MaskedOnlyMlm(model)
+        self.decoded = 0
+
+    def forward(self, input_ids, attention_mask, labels):
+        self.decoded += int((labels != IGNORE_INDEX).sum())
+        return self.inner(input_ids, attention_mask, labels)
+
+
+def flop_params(model) -> dict:
+    """Weights that do matmuls: encoder linear layers, the head transform, the decoder (hidden x vocab)."""
+    body = sum(m.weight.numel() for m in model.bert.encoder.modules() if isinstance(m, torch.nn.Linear))
+    transform = model.cls.predictions.transform.dense.weight.numel()
+    decoder = model.cls.predictions.decoder.weight.numel()
+    return {"encoder_linear": body, "head_transform": transform, "decoder": decoder}
+
+
+def model_flops(p: dict, tokens: int, decoded: int) -> float:
+    """6 x matmul weights x tokens (forward 2 + backward 4), the decoder only where it is computed; attention
+    scores (T x T) are not counted (about 3% here)."""
+    return 6 * (p["encoder_linear"] + p["head_transform"]) * tokens + 6 * p["decoder"] * decoded
+
+
+class Ours:
+    """The project's optimizer step (adapt.stages.pretrain._optimizer_step) on packed sequences."""
+
+    def __init__(self, tokenizer, train: PackedSequences, schedule: ScheduleConfig, attn: str = "sdpa",
+                 compile_module: bool = False):
+        self.cfg = PretrainJob(corpus_dir="-", seed=SEED, schedule=schedule)
+        self.model, _ = load_mlm(self.cfg.encoder)
+        if attn != self.model.config._attn_implementation:
+            self.model.set_attn_implementation(attn)
+        self.plan = MaskingPlan(tokenizer, 0.15, 0.8, 0.1)
+        self.counting = CountingMlm(self.model)
+        module = torch.compile(self.counting.inner) if compile_module else None
+        if module is not None:
+            self.counting.inner = module
+        optimizer = build_adamw(self.model, schedule.learning_rate, schedule.weight_decay)
+        scheduler = get_scheduler(schedule.decay, optimizer, num_warmup_steps=schedule.warmup_steps,
+                                  num_training_steps=schedule.max_steps)
+        trainable, total = count_trainable(self.model)
+        self.t = Training(build_adapter("full"), self.counting, optimizer, scheduler,
+                          BatchCursor(len(train), BATCH, SEED), trainable, total, {})
+        self.data = RunData(train, {}, {})
+        self.accelerator = Accelerator(cpu=True, mixed_precision="no")
+        self.params = [p for p in self.counting.parameters() if p.requires_grad]
+
+    def step(self) -> float:
+        loss, _ = _optimizer_step(self.cfg, self.t, self.data, self.plan, self.accelerator, self.params)
+        return loss
+
+
+class Plain:
+    """The library's standard loop: collator masking, full-vocabulary logits, default AdamW."""
+
+    def __init__(self, tokenizer, chunks: torch.Tensor, schedule: ScheduleConfig):
+        self.model, _ = load_mlm(EncoderConfig())
+        self.model.train()
+        self.collator = DataCollatorForLanguageModeling(tokenizer, mlm_probability=0.15, seed=SEED)
+        self.optimizer = torch.optim.AdamW(self.model.parameters(), lr=schedule.learning_rate)
+        self.scheduler = get_scheduler(schedule.decay, self.optimizer, num_warmup_steps=schedule.warmup_steps,
+                                       num_training_steps=schedule.max_steps)
+        self.chunks = chunks
+        self.order = torch.randperm(len(chunks), generator=torch.Generator().manual_seed(SEED))
+        self.position, self.decoded = 0, 0
+
+    def step(self) -> float:
+        if self.position + BATCH > len(self.order):
+            self.position = 0
+        rows = self.order[self.position:self.position + BATCH]
+        self.position += BATCH
+        batch = self.collator([{"input_ids": r} for r in self.chunks[rows].tolist()])
+        loss = self.model(**batch).loss
+        loss.backward()
+        torch.nn.utils.clip_grad_norm_(self.model.parameters(), 1.0)
+        self.optimizer.step()
+        self.scheduler.step()
+        self.optimizer.zero_grad()
+        self.decoded += batch["input_ids"].numel()  # logits at every position
+        return float(loss)
+
+
+def heldout_loss(model, evals: FixedMaskEval) -> float:
+    return evals.loss(MaskedOnlyMlm(model), torch.device("cpu"), contextlib.nullcontext)
+
+
+def alternate(loops: dict, steps: int) -> dict:
+    """Run the loops' steps in turn; per loop the seconds of each timed step (after WARM_STEPS)."""
+    times = {name: [] for name in loops}
+    for i in range(steps):
+        for name, loop in loops.items():
+            seconds = _seconds(loop.step)
+            if i >= WARM_STEPS:
+                times[name].append(seconds)
+    return times
+
+
+def summary(times: list[float], tokens_per_step: int, flops: float, steps: int, peak: float) -> dict:
+    seconds = sum(times)
+    timed_share = len(times) / steps  # FLOPs of the timed steps only
+    return {"tokens_per_s": round(tokens_per_step * len(times) / seconds, 1),
+            "median_step_s": round(float(np.median(times)), 3), "timed_steps": len(times),
+            "model_tflop_per_step": round(flops / steps / 1e12, 4),
+            "mfu_fp32": round(flops * timed_share / seconds / (peak * 1e9), 3)}
 
 
 def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--steps", type=int, default=24, help="optimizer steps of each loop (the loss comparison)")
+    parser.add_argument("--learning-rate", type=float, default=1e-4)
+    parser.add_argument("--variant-steps", type=int, default=4, help="timed steps of each speed-only variant")
+    parser.add_argument("--no-compile", action="store_true", help="skip the torch.compile variant")
+    args = parser.parse_args()
+    os.environ.setdefault("HF_HUB_OFFLINE", "1")
     transformers.logging.set_verbosity_error()
-    torch.manual_seed(0)
-    tok = load_tokenizer(EncoderConfig())
-    model, _ = load_mlm(EncoderConfig())
-    ids = torch.randint(1000, len(tok), (BATCH, SEQ))
-    ids[:, 0], ids[:, -1] = tok.cls_token_id, tok.sep_token_id
-    mask = torch.ones_like(ids)
-    plan = MaskingPlan(tok, 0.15, 0.8, 0.1)
-    masked, labels = plan.apply(ids, mask, torch.Generator().manual_seed(0))
-    opt = torch.optim.AdamW(model.parameters(), lr=1e-5)
-    fused_opt = torch.optim.AdamW(model.parameters(), lr=1e-5, fused=True)
-    module = MaskedOnlyMlm(model).train()
+    out = {"machine": machine(), "batch": BATCH, "seq_len": SEQ, "steps": args.steps, "warm_steps": WARM_STEPS}
+    peak = {"fp32_gflops": round(matmul_peak(torch.float32), 1)}
+    if out["machine"]["bf16_native"]:
+        peak["bf16_gflops"] = round(matmul_peak(torch.bfloat16), 1)
+    out["matmul_peak"] = peak
 
-    def plain():
-        model(input_ids=masked, attention_mask=mask, labels=labels).loss.backward()
-        opt.step(); opt.zero_grad()
+    tokenizer = load_tokenizer(EncoderConfig())
+    train_texts, heldout_texts = split_texts()
+    train = packed(tokenizer, train_texts)
+    plan = MaskingPlan(tokenizer, 0.15, 0.8, 0.1)
+    evals = FixedMaskEval(packed(tokenizer, heldout_texts), plan, SEED, HELDOUT_SEQS, BATCH)
+    schedule = ScheduleConfig(learning_rate=args.learning_rate, max_steps=args.steps,
+                              warmup_steps=max(1, args.steps // 10), batch_size=BATCH)
+    ours, plain = Ours(tokenizer, train, schedule), Plain(tokenizer, plain_chunks(tokenizer, train_texts), schedule)
+    start_loss = heldout_loss(plain.model, evals)
+    times = alternate({"ours": ours, "plain": plain}, args.steps)
+    tokens_per_step = BATCH * SEQ
+    params = flop_params(ours.model)
+    out["flop_params"] = params
+    tokens = tokens_per_step * args.steps
+    out["ours"] = summary(times["ours"], tokens_per_step, model_flops(params, tokens, ours.counting.decoded),
+                          args.steps, peak["fp32_gflops"])
+    out["plain"] = summary(times["plain"], tokens_per_step, model_flops(params, tokens, plain.decoded),
+                           args.steps, peak["fp32_gflops"])
+    out["speedup_ours_over_plain"] = round(out["ours"]["tokens_per_s"] / out["plain"]["tokens_per_s"], 2)
+    out["heldout"] = {"sequences": len(evals.input_ids), "masked_tokens": evals.num_masked,
+                      "train_tokens_each": tokens, "loss_at_start": round(start_loss, 4),
+                      "loss_ours": round(heldout_loss(ours.model, evals), 4),
+                      "loss_plain": round(heldout_loss(plain.model, evals), 4)}
+    del ours, plain
 
-    def ours(bf16: bool):
-        ctx = torch.autocast("cpu", dtype=torch.bfloat16) if bf16 else contextlib.nullcontext()
-        with ctx:
-            loss = module(masked, mask, labels)
-        loss.backward()
-        fused_opt.step(); fused_opt.zero_grad()
-
-    results = {"batch": BATCH, "seq_len": SEQ, "threads": torch.get_num_threads(),
-               "plain_fp32_tokens_per_s": measure(plain),
-               "ours_fp32_tokens_per_s": measure(lambda: ours(False)),
-               "ours_bf16_tokens_per_s": measure(lambda: ours(True))}
-    for k in ("ours_fp32", "ours_bf16"):
-        results[f"{k}_speedup"] = results[f"{k}_tokens_per_s"] / results["plain_fp32_tokens_per_s"]
-    print(json.dumps({k: round(v, 2) if isinstance(v, float) else v for k, v in results.items()}, indent=2))
+    # speed only: our step with eager attention, and compiled; alternated with the default (SDPA) step
+    variant_schedule = ScheduleConfig(learning_rate=args.learning_rate, max_steps=args.variant_steps + WARM_STEPS,
+                                      warmup_steps=1, batch_size=BATCH)
+    variants = {"sdpa": Ours(tokenizer, train, variant_schedule),
+                "eager": Ours(tokenizer, train, variant_schedule, attn="eager")}
+    if not args.no_compile:
+        variants["compiled"] = Ours(tokenizer, train, variant_schedule, compile_module=True)
+        first = time.perf_counter()
+        variants["compiled"].step()  # compiles (not a warm-up of the others: it trains one step more)
+        out["compile_first_step_s"] = round(time.perf_counter() - first, 1)
+    vt = alternate(variants, args.variant_steps + WARM_STEPS)
+    out["variants_tokens_per_s"] = {k: round(tokens_per_step * len(v) / sum(v), 1) for k, v in vt.items()}
+    out["machine"]["load_average_end"] = list(os.getloadavg())
+    print(json.dumps(out, indent=2))
 
 
 if __name__ == "__main__":

@@ -1,7 +1,8 @@
 """Per-document work, run on chunks of documents in worker processes (or in-process when num_proc=1).
 
 Two passes: ``normalise_chunk`` (cleaning, plus line hashes for boilerplate counting) and ``filter_chunk``
-(boilerplate removal, length, character set, personal data, quality, contamination, duplicate signatures).
+(boilerplate removal, character set, length, language, personal data, quality, contamination, duplicate
+signatures).
 Workers get their read-only state once, through the pool initializer.
 """
 
@@ -16,6 +17,7 @@ import numpy as np
 
 from adapt.config.prepare import PrepareJob
 from adapt.corpus import charsets, cleaning, privacy
+from adapt.corpus.language import LanguageIdentifier
 from adapt.corpus.contamination import TaskIndex, find_overlaps
 from adapt.corpus.minhash import MinHasher, Shingler
 
@@ -23,9 +25,11 @@ if TYPE_CHECKING:  # scikit-learn is imported only when a quality model is built
     from adapt.corpus.quality import QualityModel
 
 # Funnel stages in order; a document "reaches" a stage when it survived every earlier one.
-STAGES = ("read", "cleaned", "charset", "min_words", "personal_data", "quality", "contamination",
+STAGES = ("read", "cleaned", "charset", "min_words", "language", "personal_data", "quality", "contamination",
           "exact_duplicates", "near_duplicates")
+FILTER_STAGES = STAGES[2:STAGES.index("exact_duplicates")]  # the per-document stages of filter_chunk
 REASONS = {"cleaned": "empty_after_cleaning", "min_words": "too_short", "charset": "charset",
+           "language": "wrong_language",
            "personal_data": "personal_data", "quality": "low_quality", "contamination": "contamination",
            "exact_duplicates": "exact_duplicate", "near_duplicates": "near_duplicate"}
 
@@ -50,6 +54,7 @@ def init_worker(state: WorkState) -> None:
         charset=charsets.CharsetRules(c.language, c.extra_allowed, c.extra_denied, c.emoji).compile(),
         minhash=MinHasher(cfg.dedup.num_hashes, cfg.dedup.ngram_words, cfg.seed) if cfg.dedup.near else None,
         task_shingler=Shingler(cfg.contamination.ngram_words, cfg.seed) if state.tasks else None,
+        language=LanguageIdentifier(cfg.language_id.sample_chars) if cfg.language_id.min_probability > 0 else None,
     )
 
 
@@ -76,6 +81,7 @@ class ChunkResult:
     words: Counter = field(default_factory=Counter)  # stage -> words in those documents
     counts: Counter = field(default_factory=Counter)  # assorted counters for the profile
     bad_chars: Counter = field(default_factory=Counter)
+    wrong_languages: Counter = field(default_factory=Counter)  # most probable language of wrong_language removals
     boilerplate_examples: Counter = field(default_factory=Counter)
     quality_scores: list[float] = field(default_factory=list)
     quality_by_source: Counter = field(default_factory=Counter)  # (source, "scored"|"removed") -> documents
@@ -92,8 +98,34 @@ def _pass(res: ChunkResult, stage: str, docs: list[dict]) -> None:
     res.words[stage] += sum(d["words"] for d in docs)
 
 
+def _language_filter(docs: list[dict], res: ChunkResult) -> list[dict]:
+    """Documents identified as another language than charset.language with at least
+    language_id.min_probability are removed."""
+    cfg: PrepareJob = _STATE["state"].cfg
+    identifier: LanguageIdentifier | None = _STATE["language"]
+    if identifier is None:
+        _pass(res, "language", docs)
+        return docs
+    expected, threshold = cfg.charset.language, cfg.language_id.min_probability
+    out = []
+    for d in docs:
+        if identifier.is_clearly(d["text"], expected):
+            res.counts["language_prechecked"] += 1
+            out.append(d)
+            continue
+        v = identifier.identify(d["text"], expected)
+        if v.is_other_language(expected, threshold):
+            res.wrong_languages[v.top] += 1
+            _remove(res, d, "language", f"identified as {v.top} (p={v.top_probability:.2f} >= "
+                                        f"language_id.min_probability={threshold}); p({expected})={v.probability:.2f}")
+            continue
+        out.append(d)
+    _pass(res, "language", out)
+    return out
+
+
 def _early_filters(docs: list[dict], res: ChunkResult) -> list[dict]:
-    """Boilerplate lines, character set, minimum length, personal data."""
+    """Boilerplate lines, character set, minimum length, language, personal data."""
     st: WorkState = _STATE["state"]
     cfg = st.cfg
     out = []
@@ -121,6 +153,7 @@ def _early_filters(docs: list[dict], res: ChunkResult) -> list[dict]:
             continue
         out.append(d)
     _pass(res, "min_words", out)
+    out = _language_filter(out, res)
     if cfg.privacy.mode == "off":
         _pass(res, "personal_data", out)
         return out

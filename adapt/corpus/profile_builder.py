@@ -17,7 +17,7 @@ import pyarrow.parquet as pq
 from adapt.config.prepare import PRIVACY_KINDS, PrepareJob
 from adapt.corpus import charsets, privacy
 from adapt.common.io import atomic_write_with
-from adapt.corpus.docwork import STAGES, ChunkResult
+from adapt.corpus.docwork import FILTER_STAGES, STAGES, ChunkResult
 
 log = logging.getLogger(__name__)
 
@@ -35,6 +35,7 @@ class ProfileBuilder:
         self.removed_rows: list[tuple[str, str, str, str]] = []
         self.funnel = {s: [0, 0] for s in STAGES}
         self.bad_chars: Counter = Counter()
+        self.wrong_languages: Counter = Counter()
         self.boilerplate_examples: Counter = Counter()
         self.quality_scores: list[float] = []
         self.quality_by_source: Counter = Counter()
@@ -64,10 +65,11 @@ class ProfileBuilder:
     def merge_chunk(self, res: ChunkResult) -> None:
         for row in res.removed:
             self.remove(row)
-        for stage in STAGES[2:7]:
+        for stage in FILTER_STAGES:
             self.funnel_add(stage, res.reached[stage], res.words[stage])
         self.counts.update(res.counts)
         self.bad_chars.update(res.bad_chars)
+        self.wrong_languages.update(res.wrong_languages)
         self.boilerplate_examples.update(res.boilerplate_examples)
         self.quality_scores += res.quality_scores
         self.quality_by_source.update(res.quality_by_source)
@@ -124,6 +126,15 @@ class ProfileBuilder:
             "removed": self.reasons["charset"],
             "top_disallowed": [{"char": c, "name": charsets.describe_char(c), "count": n}
                                for c, n in self.bad_chars.most_common(10)]}
+        checked = self.funnel["min_words"][0]  # documents that reached the language check
+        li = cfg.language_id
+        self.profile["language_id"] = {
+            "language": cfg.charset.language, "min_probability": li.min_probability, "sample_chars": li.sample_chars,
+            "checked": checked if li.min_probability > 0 else 0,
+            "passed_precheck": self.counts["language_prechecked"], "removed": self.reasons["wrong_language"],
+            "removed_share": self.reasons["wrong_language"] / checked if checked and li.min_probability > 0 else 0.0,
+            "identified_as": dict(self.wrong_languages.most_common()),
+            "method": "py3langid (langid.py model, Lui & Baldwin 2012; 97 languages)"}
         findings = {k: self.counts[f"pii_{k}"] for k in cfg.privacy.kinds}
         self.profile["personal_data"] = {"mode": cfg.privacy.mode, "kinds": list(cfg.privacy.kinds),
                                          "findings": findings if cfg.privacy.mode != "off" else None,
@@ -191,6 +202,14 @@ def summary_lines(p: dict, out: Path) -> list[str]:
                 if inp["fallback_decoded"] else "")]
     removed = ", ".join(f"{r} {v['count']:,}" for r, v in p["removed"].items()) or "none"
     lines.append(f"removed {t['docs_removed']:,}: {removed}")
+    li = p["language_id"]
+    if li["min_probability"] > 0:
+        seen = ", ".join(f"{k} {n:,}" for k, n in list(li["identified_as"].items())[:5])
+        lines.append(f"language: {li['removed']:,} of {li['checked']:,} documents ({_pct(li['removed_share'])}) "
+                     f"identified as another language than {li['language']} with p >= {li['min_probability']}"
+                     + (f" ({seen})" if seen else ""))
+    else:
+        lines.append("language: not checked (language_id.min_probability=0)")
     b = p["cleaning"]["boilerplate"]
     lines.append(f"boilerplate: {b['distinct_lines']} repeated line(s), {b['lines_removed']:,} removed from "
                  f"{b['docs_affected']:,} documents; markup in {p['cleaning']['docs_with_markup']:,} documents")

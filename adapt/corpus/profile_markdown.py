@@ -58,6 +58,18 @@ def _cleaning(p: dict) -> list[str]:
             f"{_pct(ch['max_disallowed_share'])} disallowed characters removed: {ch['removed']:,}", ""]
     if ch["top_disallowed"]:
         out += _table(["disallowed character", "count"], [[e["name"], f"{e['count']:,}"] for e in ch["top_disallowed"]])
+    li = p["language_id"]
+    out += ["## Language", ""]
+    if li["min_probability"] <= 0:
+        return out + ["- not checked (language_id.min_probability=0)", ""]
+    out += [f"- {li['method']}, on the first {li['sample_chars']:,} characters of each document; "
+            f"{li['passed_precheck']:,} documents passed the function-word pre-check without it",
+            f"- documents identified as another language than {li['language']} with probability >= "
+            f"{li['min_probability']} removed (wrong_language): {li['removed']:,} of {li['checked']:,} checked "
+            f"({_pct(li['removed_share'])})", ""]
+    if li["identified_as"]:
+        out += _table(["removed documents identified as", "documents"],
+                      [[k, f"{n:,}"] for k, n in li["identified_as"].items()])
     return out
 
 

@@ -2,6 +2,11 @@
 
 Used for the stop-word share of a document (a quality feature: running prose has many function words, keyword
 spam and tables have few) and to leave function words out of the top-unigram overlap.
+
+DISTINCTIVE holds frequent function words of each language that are not words of the other Latin-script
+languages the language check tells apart (fr, pt, it, ca, gl, de, nl and en/es; chosen by us from the spelling of
+those languages, so "a", "in", "on", "as", "que", "en", "del", "con" are left out). Running text with many of them
+is in that language without asking the classifier.
 """
 
 from __future__ import annotations
@@ -23,5 +28,16 @@ STOPWORDS = {
         otras otro otros para pero poco por porque que quien quienes se sea ser si sido sin sobre son su sus
         también tanto te tiene tienen todo todos tu tus un una unas uno unos usted ustedes y ya yo él ésta
         éste sí según cada está están había habían hacia mismo misma
+    """.split()),
+}
+
+DISTINCTIVE = {
+    "en": frozenset("""
+        the and of to that with for this which from by at be been were are has have had it its not shall would
+        should will they their there these those who when what any such upon
+    """.split()),
+    "es": frozenset("""
+        los las y muy pero fue fueron hay sus cuando también según donde él ellos ellas nosotros usted ustedes
+        está están había habían mismo
     """.split()),
 }

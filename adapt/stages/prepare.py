@@ -2,7 +2,7 @@
 
 Three passes keep memory bounded by per-document signatures rather than by text:
   A. read + normalise (workers) -> spill to disk; count line hashes for boilerplate
-  B. boilerplate, charset, length, personal data, quality, contamination, signatures (workers) -> spill
+  B. boilerplate, charset, length, language, personal data, quality, contamination, signatures (workers) -> spill
   C. clusters known: write train/ and heldout/ shards, removed.parquet, profile, manifest
 Input files are only ever opened for reading.
 """

@@ -57,6 +57,9 @@ def build_corpus(root: Path, seed: int = 0) -> dict:
     docs.append({"id": "short", "text": "Tenant paid rent."})
     docs.append({"id": "cyrillic", "text": "Арендатор оплатил аренду за три месяца вперёд. " * 8})
     docs.append({"id": "spam", "text": " ".join(rng.choice(["rent", "cheap", "deposit"]) for _ in range(80))})
+    docs.append({"id": "french", "text": "Le locataire doit payer le loyer le premier jour de chaque mois. Le bailleur "
+                                         "a délivré un congé pour vendre, que le locataire conteste devant le "
+                                         "tribunal judiciaire au motif que le prix proposé est excessif."})
     task_text = " ".join(_prose(rng, 3).split()[:40])
     docs.append({"id": "leak", "text": _prose(rng, 4) + " " + task_text + " " + _prose(rng, 4)})
     with open(inp / "main.jsonl", "w", encoding="utf-8") as fh:
@@ -134,10 +137,15 @@ def test_planted_defects_are_found(prepared):
     reasons = {r: v["count"] for r, v in p["removed"].items()}
     assert reasons["exact_duplicate"] == 3 and reasons["near_duplicate"] == 5
     assert reasons["too_short"] == 1 and reasons["charset"] == 1 and reasons["contamination"] == 1
+    assert reasons["wrong_language"] == 1  # Latin script, so only the language check can catch it
     assert reasons["low_quality"] >= 1  # the keyword spam
     removed = pq.read_table(root / "out" / "removed.parquet").to_pylist()
     by_id = {r["id"]: r["reason"] for r in removed}
     assert by_id["cyrillic"] == "charset" and by_id["leak"] == "contamination" and by_id["spam"] == "low_quality"
+    assert by_id["french"] == "wrong_language"
+    li = p["language_id"]
+    assert li["identified_as"] == {"fr": 1} and li["removed_share"] == pytest.approx(1 / li["checked"])
+    assert "## Language" in (root / "out" / "profile.md").read_text()
     dups = {i for i, r in by_id.items() if r.endswith("duplicate")}
     assert len(dups) == 8 and all(len({a, b} & dups) == 1 for a, b in planted["near"] + planted["exact"])
     assert p["duplicates"]["duplicate_share"] == pytest.approx(8 / p["duplicates"]["docs_checked"])

@@ -49,6 +49,40 @@ def test_mojibake_with_bytes_cp1252_leaves_undefined_is_repaired():
     assert cleaning.normalise_text(broken).text == "“see attached” – Ramón"
 
 
+_CP1252_UNDEFINED = (0x81, 0x8D, 0x8F, 0x90, 0x9D)
+
+
+def _as_windows_1252(data: bytes) -> str:
+    """Bytes decoded as windows-1252 the way browsers and lenient decoders do it: the WHATWG Encoding Standard's
+    index-windows-1252 maps the five bytes the code page leaves undefined to the C1 control of the same number
+    (U+0081, U+008D, U+008F, U+0090, U+009D), as ISO-8859-1 does; every other byte as Python's cp1252 codec."""
+    return "".join(chr(b) if b in _CP1252_UNDEFINED else bytes([b]).decode("cp1252") for b in data)
+
+
+def _garble(text: str) -> str:
+    return _as_windows_1252(text.encode("utf-8"))
+
+
+# Á Í Ï Ð Ý are C3 81, C3 8D, C3 8F, C3 90, C3 9D in UTF-8: their second byte is one cp1252 leaves undefined.
+UPPER_CASE_SPANISH = ["ÍNDICE GENERAL DEL EXPEDIENTE", "ÁMBITO DE APLICACIÓN Y DISPOSICIÓN ÚNICA",
+                      "ANEXO Ï, SECCIÓN Ð, APARTADO Ý", "CAPÍTULO ÚNICO. ÁREA DE URGENCIAS: ÍNDICE DE GRAVEDAD"]
+
+
+@pytest.mark.parametrize("original", UPPER_CASE_SPANISH)
+@pytest.mark.parametrize("how", ["once", "twice", "beside intact text"])
+def test_mojibake_of_letters_with_undefined_cp1252_bytes_is_repaired(original, how):
+    # Reference: ftfy's documented behaviour (fix_encoding undoes UTF-8 decoded as windows-1252, the undefined
+    # bytes kept as C1 controls, and several layers of it at once) and the WHATWG windows-1252 table above.
+    broken = {"once": _garble(original), "twice": _garble(_garble(original)),
+              "beside intact text": original + " / " + _garble(original)}[how]
+    want = original if how != "beside intact text" else original + " / " + original
+    assert broken != want
+    cleaned = cleaning.normalise_text(broken)
+    assert cleaned.text == want and cleaned.mojibake_repairs > 0
+    # and the Spanish character-set filter no longer sees broken decoding in it
+    assert charsets.check_charset(cleaned.text, charsets.CharsetRules("es").compile(), 3).share == 0.0
+
+
 def test_boilerplate_lines_are_found_by_document_frequency():
     footer = "CONFIDENTIAL: this message is for the named recipient only and may be privileged."
     docs = [f"Body text number {i} about a tenancy dispute and rent arrears.\n{footer}" for i in range(12)]

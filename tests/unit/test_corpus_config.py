@@ -26,6 +26,7 @@ OVERRIDES = {
     "charset.language": ("es", "es"), "charset.extra_allowed": ("'αβ'", "αβ"),
     "charset.extra_denied": ("'~'", "~"), "charset.emoji": ("'🙂'", "🙂"),
     "charset.max_disallowed_share": ("0.05", 0.05), "charset.top_chars": ("3", 3),
+    "language_id.min_probability": ("0.8", 0.8), "language_id.sample_chars": ("300", 300),
     "quality.gold_path": ("gold/g.jsonl", "gold/g.jsonl"), "quality.text_field": ("body", "body"),
     "quality.label_field": ("y", "y"), "quality.min_score": ("0.3", 0.3), "quality.cv_folds": ("3", 3),
     "quality.hash_features_log2": ("12", 12),
@@ -95,6 +96,8 @@ BAD_VALUES = [
     ("boilerplate.min_docs=1", "boilerplate.min_docs=1 must be 0 (off) or >= 2"),
     ("contamination.remove_splits=[holdout]", "contamination.remove_splits has unknown splits ['holdout']"),
     ("quality.min_score=1.5", "quality.min_score=1.5 is outside [0, 1)"),
+    ("language_id.min_probability=1", "language_id.min_probability=1.0 is outside [0, 1)"),
+    ("language_id.sample_chars=10", "language_id.sample_chars=10 must be >= 50"),
 ]
 
 

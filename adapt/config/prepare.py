@@ -165,6 +165,22 @@ class PrepareRuntimeConfig:
     progress: bool = True
 
 
+ENGINE_KINDS = ("local", "dask")
+
+
+@dataclass
+class EngineConfig:
+    # local: runtime.num_proc processes on this machine; dask: a Dask cluster (pip install "adapt[cluster]") does
+    # the per-document work and the global near-duplicate step (band-key shuffle, union-find over the edges).
+    kind: str = "local"
+    # Scheduler of an existing Dask cluster, e.g. tcp://10.0.0.5:8786; null = start a local cluster of
+    # engine.workers worker processes (one thread each) for this run.
+    address: Optional[str] = None
+    workers: int = 2
+    # Seconds to wait for engine.address to answer before giving up with one error line.
+    connect_timeout_s: float = 10.0
+
+
 @dataclass
 class PrepareJob:
     # Files or folders of documents: .txt (one document per file), .jsonl, .csv/.tsv, .parquet, each
@@ -181,6 +197,7 @@ class PrepareJob:
     # Documents per work chunk sent to a worker process.
     chunk_docs: int = 256
     runtime: PrepareRuntimeConfig = field(default_factory=PrepareRuntimeConfig)
+    engine: EngineConfig = field(default_factory=EngineConfig)
     read: ReadConfig = field(default_factory=ReadConfig)
     clean: CleanConfig = field(default_factory=CleanConfig)
     boilerplate: BoilerplateConfig = field(default_factory=BoilerplateConfig)
@@ -283,6 +300,11 @@ def validate(cfg: PrepareJob, p: Problems, prefix: str = "") -> None:
     p.check(cfg.shard_docs >= 1, f"{k}shard_docs={cfg.shard_docs} must be >= 1; try {k}shard_docs=10000")
     p.check(cfg.runtime.num_proc >= 1,
             f"{k}runtime.num_proc={cfg.runtime.num_proc} must be >= 1; try {k}runtime.num_proc=1")
+    e = cfg.engine
+    p.check(e.kind in ENGINE_KINDS, f"{k}engine.kind={e.kind!r} is not one of {', '.join(ENGINE_KINDS)}; "
+                                    f"try {k}engine.kind=local")
+    p.check(e.workers >= 1, f"{k}engine.workers={e.workers} must be >= 1; try {k}engine.workers=2")
+    p.check(e.connect_timeout_s > 0, f"{k}engine.connect_timeout_s={e.connect_timeout_s} must be > 0; try 10")
     p.check(cfg.chunk_docs >= 1, f"{k}chunk_docs={cfg.chunk_docs} must be >= 1; try {k}chunk_docs=256")
     _validate_filters(cfg, p, k)
     _validate_dedup_privacy(cfg, p, k)

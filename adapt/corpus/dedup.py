@@ -68,11 +68,18 @@ def cluster_documents(doc_hashes: np.ndarray, sigs: np.ndarray | None, quality: 
     e = np.concatenate(edges) if edges else np.empty((0, 2), dtype=np.int64)
     graph = coo_matrix((np.ones(len(e), dtype=np.int8), (e[:, 0], e[:, 1])), shape=(n, n))
     _, labels = connected_components(graph, directed=False)
+    return clusters_from_labels(labels, doc_hashes, quality, exact, remove, n_cand, n_ver)
+
+
+def clusters_from_labels(labels: np.ndarray, doc_hashes: np.ndarray, quality: np.ndarray, exact: bool,
+                         remove: bool, n_cand: int = 0, n_ver: int = 0) -> Clusters:
+    """Clusters from any component labelling (equal label = same cluster): ids, kept documents, exact copies."""
+    n = doc_hashes.size
     # Renumber clusters by first appearance so ids are stable and readable.
     _, first = np.unique(labels, return_index=True)
     rank = np.empty(first.size, dtype=np.int64)
     rank[np.argsort(first)] = np.arange(first.size)
-    cluster_id = rank[labels]
+    cluster_id = rank[np.unique(labels, return_inverse=True)[1]] if n else np.zeros(0, np.int64)
     order = np.lexsort((np.arange(n), -quality, cluster_id))
     is_first = np.r_[True, cluster_id[order][1:] != cluster_id[order][:-1]] if n else np.zeros(0, bool)
     rep = np.zeros(n, dtype=bool)

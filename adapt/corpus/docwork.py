@@ -17,8 +17,8 @@ import numpy as np
 
 from adapt.config.prepare import PrepareJob
 from adapt.corpus import charsets, cleaning, privacy
-from adapt.corpus.language import LanguageIdentifier
 from adapt.corpus.contamination import TaskIndex, find_overlaps
+from adapt.corpus.language import LanguageIdentifier
 from adapt.corpus.minhash import MinHasher, Shingler
 
 if TYPE_CHECKING:  # scikit-learn is imported only when a quality model is built

@@ -53,11 +53,11 @@ class LanguageVerdict:
 
 
 class LanguageIdentifier:
-    """Scores the first ``sample_chars`` characters of a document (the cost grows with the length)."""
+    """Scores the first ``sample_chars`` characters of a document (the cost grows with the length). The model is
+    read at the first document the pre-check does not settle, so a pass that needs none never reads it."""
 
     def __init__(self, sample_chars: int):
         self.sample_chars = sample_chars
-        self._model = _load_model()
 
     def is_clearly(self, text: str, expected: str) -> bool:
         """The pre-check: enough function words found only in ``expected`` among the first words (split at white
@@ -69,6 +69,6 @@ class LanguageIdentifier:
     def identify(self, text: str, expected: str) -> LanguageVerdict:
         if not text.strip():  # no evidence for any language, the expected one included
             return LanguageVerdict("und", 0.0, 0.0)
-        ranked = self._model.rank(text[:self.sample_chars])  # [(language, probability)], most probable first
+        ranked = _load_model().rank(text[:self.sample_chars])  # [(language, probability)], most probable first
         top, p_top = ranked[0]
         return LanguageVerdict(top, float(p_top), float(dict(ranked).get(expected, 0.0)))

@@ -28,7 +28,8 @@ from adapt.contracts.model_folder import resolve_model_folder
 from adapt.contracts.prepared_corpus import OUTPUT_SCHEMA, REMOVED_SCHEMA, ShardWriter, clear_prepared
 from adapt.corpus import cleaning
 from adapt.corpus.contamination import TaskIndex, contamination_summary, load_task_texts
-from adapt.corpus.docwork import ChunkResult, Workers, WorkState, filter_chunk, normalise_chunk
+from adapt.corpus.docwork import ChunkResult, WorkState, filter_chunk, normalise_chunk
+from adapt.corpus.engine import open_engine
 from adapt.corpus.profile import TextSample, length_histogram, tokenizer_stats, unigram_overlap
 from adapt.corpus.profile_builder import ProfileBuilder, summary_lines
 from adapt.corpus.readers import ReadStats, list_input_files, read_documents
@@ -99,12 +100,13 @@ def _prepare_models(cfg: PrepareJob, paths: dict, pb: ProfileBuilder):
     return quality, tasks
 
 
-def _pass_a(cfg: PrepareJob, spill: Spill, pb: ProfileBuilder, stats: ReadStats) -> tuple[np.ndarray, int]:
+def _pass_a(cfg: PrepareJob, engine, spill: Spill, pb: ProfileBuilder,  # noqa: ANN001 - engine.open_engine
+            stats: ReadStats) -> tuple[np.ndarray, int]:
     """Read and normalise; returns (line hashes of distinct documents, number of distinct documents)."""
     keys, seen = [], set()
     docs = ((d.id, d.text, d.source) for d in read_documents(cfg.inputs, cfg.read, stats))
     bar = tqdm(desc="clean", unit="doc", disable=not cfg.runtime.progress, delay=1.0)
-    with Workers(cfg.runtime.num_proc, WorkState(cfg)) as workers:
+    with engine.workers(WorkState(cfg)) as workers:
         for results in workers.imap(normalise_chunk, batched(docs, cfg.chunk_docs)):
             rows = []
             for doc_id, text, source, markup, controls, repairs, line_keys, raw_words in results:
@@ -130,11 +132,12 @@ def _pass_a(cfg: PrepareJob, spill: Spill, pb: ProfileBuilder, stats: ReadStats)
     return all_keys, len(seen)
 
 
-def _pass_b(cfg: PrepareJob, state: WorkState, src: Spill, dst: Spill, pb: ProfileBuilder) -> dict:
+def _pass_b(cfg: PrepareJob, engine, state: WorkState, src: Spill, dst: Spill,  # noqa: ANN001
+            pb: ProfileBuilder) -> dict:
     """Filters and signatures; returns per kept document: hash, quality, words, id, signature; and task hits."""
     kept: dict[str, list] = {"hashes": [], "quality": [], "words": [], "ids": [], "sigs": [], "hits": []}
     bar = tqdm(total=src.count, desc="filter", unit="doc", disable=not cfg.runtime.progress, delay=1.0)
-    with Workers(cfg.runtime.num_proc, state) as workers:
+    with engine.workers(state) as workers:
         res: ChunkResult
         for res in workers.imap(filter_chunk, src.batches(cfg.chunk_docs)):
             pb.merge_chunk(res)
@@ -148,9 +151,7 @@ def _pass_b(cfg: PrepareJob, state: WorkState, src: Spill, dst: Spill, pb: Profi
                 kept["sigs"].append(res.signatures)
             bar.update(len(res.kept) + len(res.removed))
     bar.close()
-    k = cfg.dedup.num_hashes
-    kept["sigs"] = (np.concatenate(kept["sigs"]) if kept["sigs"] else np.empty((0, k), np.uint32)) \
-        if cfg.dedup.near else None
+    kept["sigs"] = engine.collect_signatures(kept["sigs"])  # an array, or partitions left on a cluster
     for key, dtype in (("hashes", np.uint64), ("quality", float), ("words", np.int64)):
         kept[key] = np.array(kept[key], dtype=dtype)
     return kept
@@ -202,13 +203,10 @@ def _general_sample(cfg: PrepareJob, path: Path | None) -> TextSample | None:
     return sample
 
 
-def _dedup(cfg: PrepareJob, kept: dict, pb: ProfileBuilder):  # noqa: ANN202 - dedup.Clusters
-    from adapt.corpus.dedup import cluster_documents  # scipy
-
+def _dedup(cfg: PrepareJob, engine, kept: dict, pb: ProfileBuilder):  # noqa: ANN001, ANN202 - dedup.Clusters
     d = cfg.dedup
     hashes, words = kept["hashes"], kept["words"]
-    clusters = cluster_documents(hashes, kept["sigs"], kept["quality"], d.bands, d.threshold,
-                                 exact=d.exact, remove=d.remove)
+    clusters = engine.cluster_documents(hashes, kept["sigs"], kept["quality"])
     if d.remove:
         exact = clusters.exact_copy
         pb.funnel_add("exact_duplicates", int((~exact).sum()), int(words[~exact].sum()))
@@ -220,11 +218,12 @@ def _dedup(cfg: PrepareJob, kept: dict, pb: ProfileBuilder):  # noqa: ANN202 - d
     return clusters
 
 
-def _read_and_clean(cfg: PrepareJob, work: Path, files: list, pb: ProfileBuilder) -> tuple[Spill, frozenset]:
+def _read_and_clean(cfg: PrepareJob, engine, work: Path, files: list,  # noqa: ANN001
+                    pb: ProfileBuilder) -> tuple[Spill, frozenset]:
     """Pass A; returns the spill of cleaned documents and the hashes of boilerplate lines."""
     stats = ReadStats()
     spill = Spill(work / "normalised.parquet", NORMALISED)
-    line_keys, distinct = _pass_a(cfg, spill, pb, stats)
+    line_keys, distinct = _pass_a(cfg, engine, spill, pb, stats)
     spill.close()
     if stats.docs_read == 0:
         skipped = "; ".join(f"{k}: {v}" for k, v in list(stats.files_skipped.items())[:3])
@@ -249,15 +248,16 @@ def _measure(cfg: PrepareJob, pb: ProfileBuilder, corpus: TextSample, general: T
     pb.profile["unigram_overlap"] = unigram_overlap(corpus, general, cfg.profile.top_unigrams) if general else None
 
 
-def _run_passes(cfg: PrepareJob, out: Path, files: list, paths: dict, start: float) -> dict:
+def _run_passes(cfg: PrepareJob, engine, out: Path, files: list, paths: dict,  # noqa: ANN001
+                start: float) -> dict:
     pb = ProfileBuilder(cfg)
     work = out / ".work"
     clear_prepared(out)
-    spill_a, frequent = _read_and_clean(cfg, work, files, pb)
+    spill_a, frequent = _read_and_clean(cfg, engine, work, files, pb)
     quality_model, tasks = _prepare_models(cfg, paths, pb)
     general = _general_sample(cfg, paths["general"])
     spill_b = Spill(work / "filtered.parquet", FILTERED)
-    kept = _pass_b(cfg, WorkState(cfg, frequent, quality_model, tasks), spill_a, spill_b, pb)
+    kept = _pass_b(cfg, engine, WorkState(cfg, frequent, quality_model, tasks), spill_a, spill_b, pb)
     spill_b.close()
     if tasks is not None:
         doc_hits: dict[int, list[str]] = {}
@@ -265,7 +265,7 @@ def _run_passes(cfg: PrepareJob, out: Path, files: list, paths: dict, start: flo
             doc_hits.setdefault(task, []).append(doc_id)
         pb.profile["contamination"] = contamination_summary(tasks, doc_hits, pb.reasons["contamination"],
                                                             cfg.contamination)
-    clusters = _dedup(cfg, kept, pb)
+    clusters = _dedup(cfg, engine, kept, pb)
     corpus = TextSample(cfg.charset.language, cfg.profile.sample_docs, cfg.seed)
     pb.profile["split"] = _pass_c(cfg, out, spill_b, clusters, kept["ids"], pb, corpus)
     _measure(cfg, pb, corpus, general)
@@ -289,7 +289,8 @@ def run(cfg: PrepareJob) -> dict:
     paths = _check_settings(cfg)
     run_folder = RunFolder(out, "prepare", cfg, cfg.inputs, cfg.seed)
     try:
-        profile = _run_passes(cfg, out, files, paths, start)
+        with open_engine(cfg) as engine:  # a cluster started for this run stops when the passes end
+            profile = _run_passes(cfg, engine, out, files, paths, start)
     except UserError as exc:
         run_folder.finish("failed", error=str(exc))
         raise

@@ -17,6 +17,8 @@ OVERRIDES = {
     "out_dir": ("elsewhere", "elsewhere"), "seed": ("3", 3), "domain": ("clinical", "clinical"),
     "heldout_share": ("0.2", 0.2), "shard_docs": ("50", 50), "runtime.num_proc": ("2", 2), "chunk_docs": ("16", 16),
     "runtime.progress": ("false", False),
+    "engine.kind": ("dask", "dask"), "engine.address": ("tcp://10.0.0.5:8786", "tcp://10.0.0.5:8786"),
+    "engine.workers": ("4", 4), "engine.connect_timeout_s": ("3", 3.0),
     "read.text_field": ("body", "body"), "read.id_field": ("key", "key"),
     "read.fallback_encoding": ("latin-1", "latin-1"), "read.csv_delimiter": ("';'", ";"),
     "clean.strip_markup": ("false", False), "clean.repair_mojibake": ("false", False),
@@ -98,6 +100,8 @@ BAD_VALUES = [
     ("quality.min_score=1.5", "quality.min_score=1.5 is outside [0, 1)"),
     ("language_id.min_probability=1", "language_id.min_probability=1.0 is outside [0, 1)"),
     ("language_id.sample_chars=10", "language_id.sample_chars=10 must be >= 50"),
+    ("engine.kind=spark", "engine.kind='spark' is not one of local, dask; try engine.kind=local"),
+    ("engine.workers=0", "engine.workers=0 must be >= 1"),
 ]
 
 

@@ -101,7 +101,8 @@ def test_import_scan_sees_imports_inside_functions_and_skips_relative_ones(tmp_p
 def test_runtime_dependencies_are_exactly_the_distributions_adapt_imports():
     imported = imported_distributions(ROOT / "adapt")
     declared = declared_runtime()
-    undeclared = {d: sorted(f)[:3] for d, f in imported.items() if d not in declared}
+    optional = declared_extra("cluster")  # imported only by the module that engine.kind=dask loads
+    undeclared = {d: sorted(f)[:3] for d, f in imported.items() if d not in declared | optional}
     unused = sorted(declared - set(imported))
     assert not undeclared and not unused, (
         f"adapt/ imports distributions missing from [project] dependencies: {undeclared or 'none'}; [project] "

@@ -140,6 +140,14 @@ MAX_REPLAY_SHARE = 0.5
 
 
 @dataclass
+class PretrainEncoderConfig(EncoderConfig):
+    # Dropout on the attention probabilities while pretraining (BERT: attention_probs_dropout_prob), in [0, 1);
+    # null = the checkpoint's own. 0 lets CPU attention take its fused path (benchmarks/README.md,
+    # pretrain_speed.py). Exported folders keep the checkpoint's own value, so fine-tuning is the same for all arms.
+    attention_dropout: Optional[float] = None
+
+
+@dataclass
 class PretrainJob:
     # Prepared corpus folder (output of the prepare job: train/ and heldout/ Parquet shards).
     corpus_dir: str = "???"
@@ -152,7 +160,7 @@ class PretrainJob:
     resume: str = "auto"
     data: DataConfig = field(default_factory=DataConfig)
     replay: ReplayConfig = field(default_factory=ReplayConfig)
-    encoder: EncoderConfig = field(default_factory=EncoderConfig)
+    encoder: PretrainEncoderConfig = field(default_factory=PretrainEncoderConfig)
     masking: MaskingConfig = field(default_factory=MaskingConfig)
     schedule: ScheduleConfig = field(default_factory=ScheduleConfig)
     head_warmup: HeadWarmupConfig = field(default_factory=HeadWarmupConfig)
@@ -180,6 +188,9 @@ def validate(cfg: PretrainJob, p: Problems, prefix: str = "") -> None:
     k = (prefix + ".") if prefix else ""
     p.check(cfg.corpus_dir not in ("", "???"), f"{k}corpus_dir is not set; pass {k}corpus_dir=<prepared folder>")
     validate_encoder(cfg.encoder, f"{k}encoder", p)
+    ad = cfg.encoder.attention_dropout
+    p.check(ad is None or 0 <= ad < 1, f"{k}encoder.attention_dropout={ad} is outside [0, 1); try "
+            f"{k}encoder.attention_dropout=0, or null for the checkpoint's own value")
     validate_masking(cfg.masking, f"{k}masking", p)
     validate_runtime(cfg.runtime, f"{k}runtime", p)
     s = cfg.schedule

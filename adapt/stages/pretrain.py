@@ -38,7 +38,7 @@ from adapt.contracts.manifest import RunFolder
 from adapt.contracts.checkpoint import best_checkpoint, read_state
 from adapt.contracts.run_folder import BASE, BEST, CHECKPOINTS, FINAL, METRICS, MetricsLog, ensure_writable
 from adapt.training.adapters import Adapter, build_adapter, count_trainable
-from adapt.training.encoder import head_parameter_names, load_mlm, load_tokenizer
+from adapt.training.encoder import attention_dropout_values, head_parameter_names, load_mlm, load_tokenizer
 from adapt.training.early_stop import LOSS_KEY, judge, patience_spent
 from adapt.training.export import CI_HIGH, CI_LOW, export_checkpoint, export_saved, measure_pppl
 from adapt.training.model_card import write_model_card
@@ -384,7 +384,8 @@ def _finish(s: Session, t: Training, data: RunData, tokenizer, head_report) -> d
               "tokens_seen": t.tokens_seen, "trainable_parameters": t.trainable, "total_parameters": t.total,
               "num_processes": accelerator.num_processes,
               "effective_batch_size": sched.batch_size * sched.grad_accum_steps * accelerator.num_processes,
-              "precision": s.precision.precision, "head_missing": head_report.missing,
+              "precision": s.precision.precision, "attention_dropout": attention_dropout_values(final_model),
+              "head_missing": head_report.missing,
               "head_warmup": _warmup_record(s.metrics), "start": _start_figures(s.metrics), "end": end,
               "best": on_main(accelerator, lambda: _best_figures(s, t))}
 
@@ -413,7 +414,7 @@ def run(cfg: PretrainJob) -> dict:
 def _run(s: Session) -> dict:
     cfg, accelerator = s.cfg, s.accelerator
     tokenizer = load_tokenizer(cfg.encoder)
-    model, head_report = load_mlm(cfg.encoder)
+    model, head_report = load_mlm(cfg.encoder, attention_dropout=cfg.encoder.attention_dropout)
     adapter = build_adapter(cfg.adapter.kind)
     adapter.check(model, cfg.adapter)  # before the corpus is read
     resume_from, fingerprint = on_main(accelerator, lambda: open_run(s, model, tokenizer, adapter))

@@ -19,12 +19,18 @@ from transformers import (AutoConfig, AutoModel, AutoModelForMaskedLM, AutoToken
                           PreTrainedTokenizerBase)
 
 from adapt.config.common import PACKAGED_ENCODER, EncoderConfig
-from adapt.common.errors import InputError
+from adapt.common.errors import ConfigError, InputError
 from adapt.contracts.model_folder import resolve_model_folder
 
 log = logging.getLogger(__name__)
 
 KEY = "encoder.name_or_path"
+# Config attributes holding the dropout on attention probabilities (transformers 5.24's config classes: BERT,
+# RoBERTa, XLM-R, ELECTRA, ALBERT, MPNet, DeBERTa-v2 use the first; DistilBERT, ModernBERT the second).
+ATTENTION_DROPOUT_ATTRS = ("attention_probs_dropout_prob", "attention_dropout")
+# Model attribute set by load_mlm: config values written into exported folders instead of the training ones
+# (adapt.training.export.write_model_folder), so that fine-tuning sees the checkpoint's own settings.
+EXPORT_CONFIG = "export_config_values"
 
 
 def _unloadable(setting: str, path: str, exc: Exception) -> InputError:
@@ -50,12 +56,17 @@ def vocab_sha256(tokenizer: PreTrainedTokenizerBase) -> str:
     return hashlib.sha256(json.dumps([lower, vocab], ensure_ascii=False).encode("utf-8")).hexdigest()
 
 
-def check_loadable(path: str, trust_remote_code: bool = False, setting: str | None = None) -> None:
-    """Cheap early check that the config and the tokenizer of ``path`` load (no weights are read)."""
+def open_config(path: str, trust_remote_code: bool = False, setting: str | None = None, **overrides):
+    """The model config of ``path`` with ``overrides`` applied (no weights are read)."""
     try:
-        AutoConfig.from_pretrained(path, trust_remote_code=trust_remote_code)
+        return AutoConfig.from_pretrained(path, trust_remote_code=trust_remote_code, **overrides)
     except (OSError, ValueError) as exc:
         raise _unloadable(setting or f"{KEY}={path}", path, exc) from exc
+
+
+def check_loadable(path: str, trust_remote_code: bool = False, setting: str | None = None) -> None:
+    """Cheap early check that the config and the tokenizer of ``path`` load (no weights are read)."""
+    open_config(path, trust_remote_code, setting)
     open_tokenizer(path, trust_remote_code, setting)
 
 
@@ -100,23 +111,35 @@ def head_parameter_names(model: PreTrainedModel) -> list[str]:
     return [n for n, _ in model.named_parameters() if not n.startswith(prefix)]
 
 
-def load_mlm(cfg: EncoderConfig, path: str | None = None) -> tuple[PreTrainedModel, HeadReport]:
-    """Load a masked-LM model in fp32; report head weights the checkpoint did not contain."""
+def load_mlm(cfg: EncoderConfig, path: str | None = None,
+             attention_dropout: float | None = None) -> tuple[PreTrainedModel, HeadReport]:
+    """Load a masked-LM model in fp32; report head weights the checkpoint did not contain. ``attention_dropout``
+    (None = the checkpoint's own) is set on the config before the model is built; the model keeps the
+    checkpoint's value in ``EXPORT_CONFIG`` for the folders written from it."""
     path = path or resolve_model_folder(cfg.name_or_path, KEY)
+    setting = f"{KEY}={cfg.name_or_path}"
     if cfg.random_init:
-        config = AutoConfig.from_pretrained(path, trust_remote_code=cfg.trust_remote_code,
-                                            **dict(cfg.random_overrides))
+        config = open_config(path, cfg.trust_remote_code, setting, **dict(cfg.random_overrides))
+        exported = _set_attention_dropout(config, attention_dropout, cfg.name_or_path)
         with torch.random.fork_rng():  # fixed init so smoke runs are reproducible
             torch.manual_seed(0)
             model = AutoModelForMaskedLM.from_config(config)
+        setattr(model, EXPORT_CONFIG, exported)
         return model, HeadReport(head_params=_count(model, head_parameter_names(model)))
+    exported = {}
+    if attention_dropout is not None:
+        exported = _set_attention_dropout(open_config(path, cfg.trust_remote_code, setting), attention_dropout,
+                                          cfg.name_or_path)
+    overrides = {attr: float(attention_dropout) for attr in exported}  # config kwargs: override config.json's
     try:
         with torch.random.fork_rng():  # missing head weights get the same random init on every load
             torch.manual_seed(0)
             model, info = AutoModelForMaskedLM.from_pretrained(path, trust_remote_code=cfg.trust_remote_code,
-                                                               output_loading_info=True, dtype=torch.float32)
+                                                               output_loading_info=True, dtype=torch.float32,
+                                                               **overrides)
     except (OSError, ValueError) as exc:
-        raise _unloadable(f"{KEY}={cfg.name_or_path}", path, exc) from exc
+        raise _unloadable(setting, path, exc) from exc
+    setattr(model, EXPORT_CONFIG, exported)
     prefix = model.base_model_prefix + "."
     missing = sorted(k for k in info.get("missing_keys", []) if not k.startswith(prefix))
     body_missing = sorted(k for k in info.get("missing_keys", []) if k.startswith(prefix))
@@ -130,6 +153,34 @@ def load_mlm(cfg: EncoderConfig, path: str | None = None) -> tuple[PreTrainedMod
                     "masked-token predictions are meaningless until the head is trained", cfg.name_or_path,
                     len(missing), ", ".join(missing[:2]))
     return model, report
+
+
+def _attention_dropout_attr(config) -> str | None:
+    return next((a for a in ATTENTION_DROPOUT_ATTRS if hasattr(config, a)), None)
+
+
+def _set_attention_dropout(config, attention_dropout: float | None, name: str) -> dict[str, float]:
+    """Set the attention-probability dropout on ``config``; returns the checkpoint's value by attribute ({} when
+    ``attention_dropout`` is None). Refuses an architecture whose config has no such attribute."""
+    if attention_dropout is None:
+        return {}
+    attr = _attention_dropout_attr(config)
+    if attr is None:
+        raise ConfigError(f"encoder.attention_dropout={attention_dropout}: the config of {name} "
+                          f"({config.model_type}) has no attention-probability dropout "
+                          f"({' or '.join(ATTENTION_DROPOUT_ATTRS)}); set encoder.attention_dropout=null")
+    exported = {attr: getattr(config, attr)}
+    setattr(config, attr, float(attention_dropout))
+    return exported
+
+
+def attention_dropout_values(model: torch.nn.Module) -> dict[str, float | None]:
+    """The attention-probability dropout of a model ``load_mlm`` built: ``training`` (its config now) and
+    ``exported`` (what config.json of its exported folders carries); None where the architecture has none."""
+    config = unwrap_peft(model).config
+    attr = _attention_dropout_attr(config)
+    training = None if attr is None else getattr(config, attr)
+    return {"training": training, "exported": getattr(model, EXPORT_CONFIG, {}).get(attr, training)}
 
 
 def _count(model: torch.nn.Module, names: list[str]) -> int:

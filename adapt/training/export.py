@@ -3,6 +3,7 @@ adapt.training.model_card) and the exact pseudo-perplexity figures measured at t
 
 from __future__ import annotations
 
+import contextlib
 import shutil
 from pathlib import Path
 from typing import Callable
@@ -13,6 +14,7 @@ from safetensors import SafetensorError
 from adapt.common.errors import InputError
 from adapt.common.io import fsync_tree, hash_file, replace_folder
 from adapt.config.pretrain import PretrainJob
+from adapt.training.encoder import EXPORT_CONFIG
 
 WEIGHTS = "model.safetensors"
 ONE_FILE = "1000GB"  # max_shard_size that keeps every weight in one safetensors file
@@ -22,8 +24,25 @@ def write_model_folder(model: torch.nn.Module, tokenizer, folder: Path) -> None:
     """Write into ``folder`` what plain ``AutoModelForMaskedLM.from_pretrained`` loads: config, safetensors
     weights (one file, so that a checkpoint restores from it directly), tokenizer files."""
     folder.mkdir(parents=True, exist_ok=True)
-    model.save_pretrained(folder, safe_serialization=True, max_shard_size=ONE_FILE)
+    with _exported_config(model):
+        model.save_pretrained(folder, safe_serialization=True, max_shard_size=ONE_FILE)
     tokenizer.save_pretrained(folder)
+
+
+@contextlib.contextmanager
+def _exported_config(model: torch.nn.Module):
+    """While ``model`` is written, ``model.config`` holds the checkpoint's own values of settings changed for
+    training only (encoder.attention_dropout), so that every folder written (base/, checkpoints, final/, and best/
+    as a checkpoint's copy) fine-tunes like the starting encoder; the training values come back afterwards."""
+    exported = getattr(model, EXPORT_CONFIG, None) or {}
+    training = {attr: getattr(model.config, attr) for attr in exported}
+    for attr, value in exported.items():
+        setattr(model.config, attr, value)
+    try:
+        yield
+    finally:
+        for attr, value in training.items():
+            setattr(model.config, attr, value)
 
 
 def export_checkpoint(model: torch.nn.Module, tokenizer, folder: Path,

@@ -53,6 +53,16 @@ def _figures(result: dict, which: str) -> list[str]:
     return head + [f"| {k} | {fmt(start, k)} |" + (f" {fmt(after, k)} |" if label else "") for k in keys]
 
 
+def _attention_dropout_line(result: dict) -> str:
+    d = result["attention_dropout"]
+    if d.get("training") is None:
+        return "attention-probability dropout: not a setting of this architecture's config"
+    if d["training"] == d["exported"]:
+        return f"attention-probability dropout: {d['training']} (the starting encoder's own)"
+    return (f"attention-probability dropout: {d['training']} in training (encoder.attention_dropout); config.json "
+            f"keeps the starting encoder's {d['exported']}, so fine-tuning uses the same dropout as for the base")
+
+
 def write_model_card(folder: Path, cfg: PretrainJob, result: dict, which: str) -> None:
     """README.md of ``folder``, ``which`` one of base, final, best."""
     warm = result.get("head_warmup")
@@ -69,6 +79,7 @@ def write_model_card(folder: Path, cfg: PretrainJob, result: dict, which: str) -
 - optimizer steps: {result['step']} of schedule.max_steps={cfg.schedule.max_steps}{' (stopped early)' if result.get('stopped_by') == 'early_stop' else ''}; tokens seen: {result['tokens_seen']:,}
 - effective batch: {result['effective_batch_size']} sequences (batch {cfg.schedule.batch_size} × accumulation {cfg.schedule.grad_accum_steps} × {result['num_processes']} process(es)) of up to {cfg.encoder.max_seq_len} tokens
 - precision: {result['precision']}; seed {cfg.seed}
+- {_attention_dropout_line(result)}
 - masking: rate {cfg.masking.rate}, mask {cfg.masking.mask_share} / random {cfg.masking.random_share} / keep the rest, unit {cfg.masking.unit}
 - data order: {cfg.data.order}; general-text replay share: {cfg.replay.share}
 - learning rate {cfg.schedule.learning_rate}, warmup {cfg.schedule.warmup_steps} steps, {cfg.schedule.decay} decay

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 
 from adapt.config.common import RuntimeConfig, validate_runtime
@@ -26,6 +27,9 @@ class TaskConfig:
     # A test split lacking one of the task's labels is refused (metrics average over every label); true scores
     # such a label as F1 = 0, with a warning.
     allow_missing_test_labels: bool = False
+    # Further test sets, name -> file (relative to dir, or absolute; same fields and labels), e.g. another document
+    # type or source: every arm is scored on each, and the domain-gap table sets the reference arm on test = 100.
+    other_tests: dict[str, str] = field(default_factory=dict)
 
 
 @dataclass
@@ -78,6 +82,14 @@ class CompareJob:
     # Inverse regularisation strengths tried for the TF-IDF arm; the best dev macro-F1 wins (smallest on ties).
     tfidf_c_values: list[float] = field(default_factory=lambda: [0.1, 1.0, 10.0, 100.0])
     significance: SignificanceConfig = field(default_factory=SignificanceConfig)
+    # Shares of the training split to fine-tune on as well (a learning curve); 1.0 is the full run the verdict
+    # uses. Each share is a class-stratified subset (at least one example per label) drawn once from
+    # label_budget_seed; a smaller share's subset lies inside a larger one's, and every arm and seed gets the same.
+    label_budgets: list[float] = field(default_factory=lambda: [1.0])
+    label_budget_seed: int = 0
+    # Arm -> its control arm (e.g. the same pretraining budget on general text): each arm is also tested against
+    # its control, so "domain text helped" is told apart from "more pretraining helped".
+    controls: dict[str, str] = field(default_factory=dict)
     out_dir: str = "runs/compare"
     runtime: RuntimeConfig = field(default_factory=RuntimeConfig)
 
@@ -107,6 +119,18 @@ def validate(cfg: CompareJob, p: Problems, prefix: str = "", arms_required: bool
             f"{k}tfidf_c_values={list(cfg.tfidf_c_values)} must be a non-empty list of positive numbers; "
             f"try {k}tfidf_c_values=[0.1,1,10,100]")
     _validate_significance(cfg.significance, f"{k}significance", p)
+    budgets = list(cfg.label_budgets)
+    p.check(bool(budgets) and all(0 < b <= 1 for b in budgets) and len(set(budgets)) == len(budgets)
+            and 1.0 in budgets,
+            f"{k}label_budgets={budgets} must be distinct shares in (0, 1] including 1.0; "
+            f"try {k}label_budgets=[0.25,0.5,1.0]")
+    for arm, control in cfg.controls.items():
+        p.check(arm in cfg.arms and control in cfg.arms and arm != control,
+                f"{k}controls.{arm}={control}: both must be fine-tuned arms and differ (arms: {sorted(cfg.arms)}); "
+                f"e.g. {k}controls.adapted=general_control")
+    for name, path in cfg.task.other_tests.items():
+        p.check(bool(str(path or "").strip()) and name != "test" and re.fullmatch(r"[\w-]+", name) is not None,
+                f"{k}task.other_tests.{name}: give a file, under a name of letters, digits, _ or - other than 'test'")
 
 
 def _validate_finetune(f: FinetuneConfig, k: str, p: Problems) -> None:

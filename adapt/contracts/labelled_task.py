@@ -60,14 +60,22 @@ class Task:
     train: Split
     dev: Split
     test: Split
+    # further test sets (name -> split), e.g. other document types or sources, scored by every arm
+    other_tests: dict[str, Split] = field(default_factory=dict)
 
     @property
     def files(self) -> list[Path]:
-        return [self.train.file, self.dev.file, self.test.file]
+        return [self.train.file, self.dev.file, self.test.file] + [s.file for s in self.other_tests.values()]
 
     @property
     def sizes(self) -> dict[str, int]:
-        return {"train": len(self.train), "dev": len(self.dev), "test": len(self.test)}
+        return {"train": len(self.train), "dev": len(self.dev), "test": len(self.test),
+                **{f"test:{name}": len(s) for name, s in self.other_tests.items()}}
+
+    def with_train_subset(self, rows: list[int]) -> "Task":
+        """The same task trained on ``rows`` of train only (dev and every test set unchanged)."""
+        train = Split(self.train.file, [self.train.texts[i] for i in rows], [self.train.label_ids[i] for i in rows])
+        return Task(self.dir, self.labels, train, self.dev, self.test, self.other_tests)
 
 
 def labelled_format(path: Path) -> tuple[str | None, bool]:
@@ -186,34 +194,52 @@ def read_labelled_file(path: Path | str, text_field: str = "text", label_field: 
     return examples
 
 
+def _checked_split(file: Path, pairs: list[tuple[str, str]], labels: list[str], train_name: str, what: str,
+                   allow_missing: bool) -> Split:
+    """A dev or test split in the task's label ids; labels unseen in train are refused, and a test set lacking a
+    task label too unless ``allow_missing``."""
+    unseen = sorted({lab for _, lab in pairs} - set(labels))
+    if unseen:
+        raise InputError(f"{file}: label(s) {unseen[:5]} do not occur in {train_name}; add training "
+                         f"examples for them or remove them from {file.name}")
+    missing = sorted(set(labels) - {lab for _, lab in pairs})
+    if missing and what == "test" and not allow_missing:
+        raise InputError(f"{file}: no example of label {missing[0]!r}"
+                         + (f" (nor {missing[1:5]})" if len(missing) > 1 else "")
+                         + "; every metric averages over the task's labels, so the test set must hold each; "
+                         "add examples, or set task.allow_missing_test_labels=true to score it as F1 = 0")
+    if missing:
+        log.warning("%s has no example of label(s) %s; macro-F1 still averages over all %d task labels, "
+                    "counting F1 = 0 for a label without examples", file, missing, len(labels))
+    index = {lab: i for i, lab in enumerate(labels)}
+    return Split(file, [t for t, _ in pairs], [index[lab] for _, lab in pairs])
+
+
 def read_task(task_dir: Path | str, text_field: str = "text", label_field: str = "label",
-              allow_missing_test_labels: bool = False) -> Task:
-    """Read and check train/dev/test of a task folder. A test split lacking one of the training labels is
+              allow_missing_test_labels: bool = False, other_tests: dict[str, str] | None = None) -> Task:
+    """Read and check train/dev/test of a task folder, and the further test files ``other_tests`` (name ->
+    file, a path relative to the task folder or absolute). A test set lacking one of the training labels is
     refused unless ``allow_missing_test_labels``."""
     task_dir = Path(task_dir)
     files = find_split_files(task_dir, "task.dir")
-    pairs = {s: [(e.text, e.label) for e in read_labelled_file(files[s], text_field, label_field, "task")]
-             for s in SPLITS}
+    for name, path in (other_tests or {}).items():
+        f = task_dir / path if not Path(path).is_absolute() else Path(path)
+        if not f.is_file():
+            raise InputError(f"task.other_tests.{name}={path}: file does not exist (relative paths start at "
+                             f"task.dir={task_dir}); give a {FORMAT_NAMES} file with the task's fields")
+        files[f"test:{name}"] = f
+    pairs = {s: [(e.text, e.label) for e in read_labelled_file(f, text_field, label_field, "task")]
+             for s, f in files.items()}
     counts = Counter(label for _, label in pairs["train"])
     if len(counts) < 2:
         raise InputError(f"{files['train']}: only {len(counts)} class ({', '.join(counts)}); a classification task "
                          f"needs at least 2 labels in the training split")
     labels = sorted(counts)
     index = {lab: i for i, lab in enumerate(labels)}
-    for s in ("dev", "test"):
-        unseen = sorted({lab for _, lab in pairs[s]} - set(labels))
-        if unseen:
-            raise InputError(f"{files[s]}: label(s) {unseen[:5]} do not occur in {files['train'].name}; add training "
-                             f"examples for them or remove them from {files[s].name}")
-        missing = sorted(set(labels) - {lab for _, lab in pairs[s]})
-        if missing and s == "test" and not allow_missing_test_labels:
-            raise InputError(f"{files[s]}: no example of label {missing[0]!r}"
-                             + (f" (nor {missing[1:5]})" if len(missing) > 1 else "")
-                             + "; every metric averages over the task's labels, so the test set must hold each; "
-                             "add examples, or set task.allow_missing_test_labels=true to score it as F1 = 0")
-        if missing:
-            log.warning("%s has no example of label(s) %s; macro-F1 still averages over all %d task labels, "
-                        "counting F1 = 0 for a label without examples", files[s], missing, len(labels))
-    splits = {s: Split(files[s], [t for t, _ in pairs[s]], [index[lab] for _, lab in pairs[s]]) for s in SPLITS}
-    log.info("task %s: %d labels, sizes %s", task_dir, len(labels), {s: len(splits[s]) for s in SPLITS})
-    return Task(dir=task_dir, labels=labels, **splits)
+    train = Split(files["train"], [t for t, _ in pairs["train"]], [index[lab] for _, lab in pairs["train"]])
+    splits = {s: _checked_split(files[s], pairs[s], labels, files["train"].name, "dev" if s == "dev" else "test",
+                                allow_missing_test_labels) for s in files if s != "train"}
+    others = {s.split(":", 1)[1]: split for s, split in splits.items() if s.startswith("test:")}
+    task = Task(dir=task_dir, labels=labels, train=train, dev=splits["dev"], test=splits["test"], other_tests=others)
+    log.info("task %s: %d labels, sizes %s", task_dir, len(labels), task.sizes)
+    return task

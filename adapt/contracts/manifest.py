@@ -6,6 +6,7 @@ number can be traced to what produced it. ``RunFolder`` is its one writer.
 
 from __future__ import annotations
 
+import datetime as _dt
 import platform
 import socket
 from pathlib import Path
@@ -24,6 +25,23 @@ def record_launch(**launch: Any) -> None:
     """Set the launch record that every manifest written from now on carries (called by the CLI per job)."""
     global _LAUNCH
     _LAUNCH = to_jsonable(launch)
+
+
+def session_seconds(manifest: dict, until: str | None = None) -> float | None:
+    """Seconds between start and end of every session of a run (a resumed run has several); with ``until`` (an
+    ISO time, e.g. a metrics record's), only the part before it. None when no session has both times."""
+    stop = _dt.datetime.fromisoformat(until) if until else None
+    total, seen = 0.0, False
+    for session in manifest.get("sessions") or [{"started": manifest.get("started"), "ended": manifest.get("ended")}]:
+        try:
+            start = _dt.datetime.fromisoformat(str(session["started"]))
+            end = _dt.datetime.fromisoformat(str(session["ended"]))
+        except (KeyError, TypeError, ValueError):
+            continue
+        end = min(end, stop) if stop is not None else end
+        total += max(0.0, (end - start).total_seconds())
+        seen = True
+    return total if seen else None
 
 
 class RunFolder:

@@ -47,13 +47,25 @@ class ArmResult:
     seconds: float = 0.0
     history: list[dict] = field(default_factory=list)
     details: dict = field(default_factory=dict)
+    # per further test set (Task.other_tests): predictions, and {"accuracy", "macro_f1"}
+    other_predictions: dict[str, list[int]] = field(default_factory=dict)
+    other_metrics: dict[str, dict[str, float]] = field(default_factory=dict)
 
     def row(self) -> dict:
         """The per-seed record written to comparison.json."""
         return {"seed": self.seed, "dev_accuracy": self.dev_accuracy, "dev_macro_f1": self.dev_macro_f1,
                 "test_accuracy": self.test_accuracy, "test_macro_f1": self.test_macro_f1,
                 "epochs_run": self.epochs_run, "selected_epoch": self.selected_epoch,
-                "seconds": round(self.seconds, 2), **self.details}
+                "seconds": round(self.seconds, 2), **self.details,
+                **({"other_tests": self.other_metrics} if self.other_metrics else {})}
+
+
+def _score_others(task: Task, predict_texts) -> tuple[dict, dict]:  # noqa: ANN001 - texts -> label ids
+    """(predictions, metrics) of every further test set of the task."""
+    preds = {name: predict_texts(split.texts) for name, split in task.other_tests.items()}
+    metrics = {name: dict(zip(("accuracy", "macro_f1"), score(task.other_tests[name].label_ids, p,
+                                                             len(task.labels)))) for name, p in preds.items()}
+    return preds, metrics
 
 
 def score(gold: list[int], pred: list[int], n_labels: int) -> tuple[float, float]:
@@ -205,14 +217,18 @@ def finetune(checkpoint: str, task: Task, cfg: FinetuneConfig, max_seq_len: int,
 def _evaluate_selected(model, tokenizer, task: Task, cfg: FinetuneConfig, max_seq_len: int, seed: int,
                        device: torch.device, autocast, history: list[dict], selected: int,
                        started: float) -> ArmResult:
-    test_pred = predict(model, tokenizer, encode(tokenizer, task.test.texts, max_seq_len), cfg.batch_size * 2,
-                        device, autocast)
+    def predict_texts(texts: list[str]) -> list[int]:
+        return predict(model, tokenizer, encode(tokenizer, texts, max_seq_len), cfg.batch_size * 2, device, autocast)
+
+    test_pred = predict_texts(task.test.texts)
     test_acc, test_f1 = score(task.test.label_ids, test_pred, len(task.labels))
+    others, other_metrics = _score_others(task, predict_texts)
     chosen = history[selected - 1]
     return ArmResult(seed=seed, dev_accuracy=chosen["dev_accuracy"], dev_macro_f1=chosen["dev_macro_f1"],
                      test_accuracy=test_acc, test_macro_f1=test_f1, test_predictions=test_pred,
                      test_gold=list(task.test.label_ids), epochs_run=len(history), selected_epoch=selected,
-                     seconds=time.perf_counter() - started, history=history)
+                     seconds=time.perf_counter() - started, history=history, other_predictions=others,
+                     other_metrics=other_metrics)
 
 
 def tfidf_baseline(task: Task, c_values: list[float]) -> ArmResult:
@@ -232,8 +248,10 @@ def tfidf_baseline(task: Task, c_values: list[float]) -> ArmResult:
     c, dev_acc, dev_f1, clf = best
     test_pred = [int(v) for v in clf.predict(x_test)]
     test_acc, test_f1 = score(task.test.label_ids, test_pred, len(task.labels))
+    others, other_metrics = _score_others(task, lambda t: [int(v) for v in clf.predict(vectorizer.transform(t))])
     return ArmResult(seed=None, dev_accuracy=dev_acc, dev_macro_f1=dev_f1, test_accuracy=test_acc,
                      test_macro_f1=test_f1, test_predictions=test_pred, test_gold=list(task.test.label_ids),
                      seconds=time.perf_counter() - started,
-                     details={"C": c, "features": int(x_train.shape[1])})
+                     details={"C": c, "features": int(x_train.shape[1])}, other_predictions=others,
+                     other_metrics=other_metrics)
 

@@ -14,6 +14,7 @@ from typing import Any
 from adapt import __version__
 from adapt.config.common import optional_str
 from adapt.config.report import ReportJob
+from adapt.contracts.manifest import session_seconds
 from adapt.contracts.run_folder import METRICS, MetricsLog
 from adapt.reporting import results
 from adapt.reporting.sources import Source, expand_score_dirs, open_source, read_json_file
@@ -118,20 +119,6 @@ def corpus_section(c: Collected, src: Source) -> dict[str, Any]:
     return out
 
 
-def _wall_seconds(manifest: dict) -> float | None:
-    """Seconds between start and end of every session of a run (a resumed run has several)."""
-    total, seen = 0.0, False
-    for session in manifest.get("sessions") or [{"started": manifest.get("started"), "ended": manifest.get("ended")}]:
-        try:
-            start = _dt.datetime.fromisoformat(str(session["started"]))
-            end = _dt.datetime.fromisoformat(str(session["ended"]))
-        except (KeyError, TypeError, ValueError):
-            continue
-        total += (end - start).total_seconds()
-        seen = True
-    return total if seen else None
-
-
 def precision_of(manifest: dict) -> dict[str, Any]:
     """The precision a run used: the manifest's record when it has one, else the configured request."""
     rec = manifest.get("precision")
@@ -187,7 +174,7 @@ def training_section(c: Collected, src: Source) -> dict[str, Any]:
         "tokens_seen": result.get("tokens_seen", train[-1].get("tokens_seen") if train else None),
         "trainable_parameters": result.get("trainable_parameters"),
         "total_parameters": result.get("total_parameters"),
-        "wall_seconds": _wall_seconds(src.manifest),
+        "wall_seconds": session_seconds(src.manifest),
         "precision": precision_of(src.manifest),
         "encoder": dig(cfg, "encoder", "name_or_path"),
         "adapter": dig(cfg, "adapter", "kind"),

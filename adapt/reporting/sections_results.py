@@ -183,8 +183,18 @@ def cost_blocks(report: dict) -> list[Block]:
                                                                           ft.items()) or MISSING)
                            + "; scoring " + (", ".join(f"{s['arm']} on {s['texts']} {fmt_seconds(s['seconds'])}"
                                                        for s in sc) or MISSING) + ".", "note"))
-    if c.get("reported_by_compare") is not None:
-        blocks += [Sub("Cost reported by the compare run"), *generic_table(c["reported_by_compare"])]
+    by_compare = c.get("reported_by_compare")
+    if isinstance(by_compare, dict) and by_compare.get("arms"):
+        blocks += [Sub("Cost of each adapted arm (from its pretrain run folder, read by compare)"),
+                   *generic_table(by_compare["arms"])]
+        for curve in by_compare.get("curves") or []:
+            steps = ", ".join(f"step {p.get('step')}: {fmt(q.get('difference'), 3, True)} "
+                              f"({fmt_interval(q.get('ci_low'), q.get('ci_high'), 3, True)})"
+                              for p in curve.get("points") or [] for q in [p.get("vs_reference") or {}])
+            blocks.append(Para(f"Checkpoints of {curve.get('run')} against the reference ({steps}). "
+                               f"Recommendation: {curve.get('recommendation')}."))
+    elif by_compare is not None:
+        blocks += [Sub("Cost reported by the compare run"), *generic_table(by_compare)]
     return blocks
 
 

@@ -12,11 +12,12 @@ import logging
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from adapt.config.compare import METRIC_NAMES, METRICS, TFIDF_ARM, CompareJob
+from adapt.config.compare import METRICS, TFIDF_ARM, CompareJob
 from adapt.contracts.manifest import RunFolder
 from adapt.common.io import atomic_write_json, atomic_write_text
 from adapt.contracts.labelled_task import Task, read_task
 from adapt.contracts.model_folder import resolve_model_folder
+from adapt.reporting.comparison_markdown import CAUTION, render_markdown, summary_lines
 
 # torch, transformers, scikit-learn and scipy are imported only after the inputs have been checked, so that a
 # wrong path fails within a second or two instead of after the slow imports
@@ -24,10 +25,6 @@ if TYPE_CHECKING:
     from adapt.evaluation.finetune import ArmResult
 
 log = logging.getLogger(__name__)
-
-CAUTION = ("These are research measurements on a benchmark task, not legal or medical advice; before any use "
-           "in legal or clinical decisions follow your institution's validation and governance processes.")
-
 
 def resolve_checkpoint(arm: str, name_or_path: str) -> str:
     """Folder of an arm's checkpoint: the packaged alias, a model folder, or a pretrain run folder's final/."""
@@ -38,21 +35,29 @@ def _ordered_arms(cfg: CompareJob) -> list[str]:
     return [cfg.reference_arm] + [a for a in cfg.arms if a != cfg.reference_arm]
 
 
-def _run_arms(cfg: CompareJob, task: Task, checkpoints: dict[str, str],
-              precision: str) -> dict[str, list[ArmResult]]:
+def _check_arms(cfg: CompareJob, checkpoints: dict[str, str]) -> None:
+    """Fail before any training if an arm's tokenizer or config is unusable."""
+    from adapt.evaluation.finetune import check_checkpoint
+
+    for arm, path in checkpoints.items():
+        check_checkpoint(path, arm, trust_remote_code=cfg.trust_remote_code)
+
+
+def _run_arms(cfg: CompareJob, task: Task, checkpoints: dict[str, str], precision: str,
+              budget: str = "") -> dict[str, list[ArmResult]]:
+    """Every arm × seed fine-tuned on ``task`` (``budget`` names a label budget in the progress lines)."""
     from tqdm.auto import tqdm
 
-    from adapt.evaluation.finetune import check_checkpoint, finetune, tfidf_baseline
+    from adapt.evaluation.finetune import finetune, tfidf_baseline
 
-    for arm, path in checkpoints.items():  # fail before any training if a tokenizer or config is unusable
-        check_checkpoint(path, arm, trust_remote_code=cfg.trust_remote_code)
     results: dict[str, list[ArmResult]] = {}
     runs = [(arm, seed) for arm in _ordered_arms(cfg) for seed in cfg.seeds]
-    for i, (arm, seed) in enumerate(tqdm(runs, desc="compare", unit="run", disable=not cfg.runtime.progress), 1):
+    bar = tqdm(runs, desc=f"compare{budget}", unit="run", disable=not cfg.runtime.progress)
+    for i, (arm, seed) in enumerate(bar, 1):
         res = finetune(checkpoints[arm], task, cfg.finetune, cfg.task.max_seq_len, seed, cfg.runtime, arm=arm,
                        precision=precision, trust_remote_code=cfg.trust_remote_code)
-        log.info("[%d/%d] %s seed %d: test accuracy %.3f, macro-F1 %.3f (epoch %d, %.1f s)", i, len(runs), arm,
-                 seed, res.test_accuracy, res.test_macro_f1, res.selected_epoch, res.seconds)
+        log.info("[%d/%d]%s %s seed %d: test accuracy %.3f, macro-F1 %.3f (epoch %d, %.1f s)", i, len(runs), budget,
+                 arm, seed, res.test_accuracy, res.test_macro_f1, res.selected_epoch, res.seconds)
         results.setdefault(arm, []).append(res)
     if cfg.tfidf_baseline:
         res = tfidf_baseline(task, list(cfg.tfidf_c_values))
@@ -95,14 +100,20 @@ def _size_cautions(task: Task) -> list[str]:
     return out
 
 
+def _pairs(cfg: CompareJob) -> list[tuple[str, str, str]]:
+    """(arm, compared with, role) of every primary test: each arm against the reference, then against its control."""
+    out = [(arm, cfg.reference_arm, "reference") for arm in _ordered_arms(cfg)[1:]]
+    return out + [(arm, control, "control") for arm, control in cfg.controls.items()
+                  if (arm, control) not in {(a, b) for a, b, _ in out}]
+
+
 def _tests(cfg: CompareJob, task: Task, results: dict[str, list[ArmResult]]) -> tuple[dict, dict]:
     from adapt.evaluation.significance import compare_pair, holm, verdict
 
     sig = cfg.significance
-    ref = results[cfg.reference_arm]
     tests, verdicts = {}, {}
-    for arm in _ordered_arms(cfg)[1:]:
-        runs = results[arm]
+    for arm, other, role in _pairs(cfg):
+        runs, ref = results[arm], results[other]
         pair = compare_pair(task.test.label_ids, [r.test_predictions for r in runs],
                             [r.test_predictions for r in ref],
                             {m: [getattr(r, f"test_{m}") for r in runs] for m in METRICS},
@@ -110,127 +121,156 @@ def _tests(cfg: CompareJob, task: Task, results: dict[str, list[ArmResult]]) -> 
                             confidence=sig.confidence, bootstrap_resamples=sig.bootstrap_resamples,
                             permutation_resamples=sig.permutation_resamples, seed=sig.seed,
                             n_classes=len(task.labels))
-        tests[f"{arm} vs {cfg.reference_arm}"] = {"arm": arm, "reference": cfg.reference_arm, **pair}
-    # Holm's correction over the arms tested against the reference (their primary tests)
+        tests[f"{arm} vs {other}"] = {"arm": arm, "reference": other, "role": role, **pair}
+    # Holm's correction over every primary test (arms against the reference and against their controls)
     adjusted = holm([t["primary"][sig.primary_metric]["p_value"] for t in tests.values()]) if tests else []
     sizes = _size_cautions(task)
     for (key, t), p_adj in zip(tests.items(), adjusted):
-        verdicts[key] = verdict(t, t["arm"], cfg.reference_arm, sig.primary_metric, sig.min_seeds,
+        verdicts[key] = verdict(t, t["arm"], t["reference"], sig.primary_metric, sig.min_seeds,
                                 adjusted_p=p_adj, n_compared=len(tests))
+        verdicts[key]["role"] = t["role"]
+        if t["role"] == "control":
+            verdicts[key]["text"] = "domain effect beyond the same pretraining on other text: " + verdicts[key]["text"]
         verdicts[key]["cautions"] += sizes
         log.info("%s", verdicts[key]["text"])
     return tests, verdicts
 
 
-def _write_predictions(path: Path, task: Task, results: dict[str, list[ArmResult]]) -> None:
-    # texts are left out on purpose: task files may hold sensitive text; the index points back into test
-    lines = []
-    for i, gold in enumerate(task.test.label_ids):
-        pred = {arm: [task.labels[r.test_predictions[i]] for r in runs] for arm, runs in results.items()}
-        seeds = {arm: [r.seed for r in runs] for arm, runs in results.items()}
-        lines.append(json.dumps({"index": i, "gold": task.labels[gold], "predicted": pred, "seeds": seeds},
-                                ensure_ascii=False))
-    atomic_write_text(path, "\n".join(lines) + "\n")
+def _pair_test(cfg: CompareJob, task: Task, metric: str):  # noqa: ANN202 - domain_gap.PairTest
+    """The verdict's seed-aware test of one metric, on any test set (a fresh generator from the config's seed)."""
+    import numpy as np
+
+    from adapt.evaluation.significance import seed_aware_difference
+
+    sig = cfg.significance
+
+    def test(gold: list[int], a: list[list[int]], b: list[list[int]]) -> dict:
+        rng = np.random.default_rng(sig.seed)
+        return seed_aware_difference(gold, a, b, len(task.labels), sig.bootstrap_resamples, rng,
+                                     sig.confidence)[metric]
+    return test
 
 
-def _pm(stat: dict) -> str:
-    return f"{stat['mean']:.3f} ± {stat['sd']:.3f}" if stat["sd"] is not None else f"{stat['mean']:.3f}"
+def _label_budget(cfg: CompareJob, task: Task, checkpoints: dict[str, str], precision: str,
+                  full: dict[str, list[ArmResult]]) -> list[dict] | None:
+    """The learning curve over cfg.label_budgets: every arm × seed fine-tuned on each nested subset."""
+    from adapt.evaluation.label_budget import budget_subsets
+    from adapt.evaluation.significance import summarize
+
+    shares = sorted(cfg.label_budgets)
+    if shares == [1.0]:
+        return None
+    metric, conf = cfg.significance.primary_metric, cfg.significance.confidence
+    subsets = budget_subsets(task.train.label_ids, shares, cfg.label_budget_seed)
+    test = _pair_test(cfg, task, metric)
+    rows = []
+    for share in shares:
+        results = full if share == 1.0 else _run_arms(cfg, task.with_train_subset(subsets[share]), checkpoints,
+                                                      precision, budget=f" at {share:g} of train")
+        ref = results[cfg.reference_arm]
+        for arm, runs in results.items():
+            stat = summarize([getattr(r, f"test_{metric}") for r in runs], conf, bounds=(0, 1))
+            row = {"arm": arm, "share": share, "train_examples": len(subsets[share]), "mean": stat["mean"],
+                   "ci_low": stat["ci_low"], "ci_high": stat["ci_high"], "difference": None,
+                   "difference_ci_low": None, "difference_ci_high": None}
+            if arm != cfg.reference_arm and len(runs) == len(ref):
+                q = test(task.test.label_ids, [r.test_predictions for r in runs], [r.test_predictions for r in ref])
+                row.update(difference=q["difference"], difference_ci_low=q["ci_low"], difference_ci_high=q["ci_high"])
+            rows.append(row)
+    return rows
 
 
-def _ci(stat: dict) -> str:
-    return f"{stat['ci_low']:.3f} to {stat['ci_high']:.3f}" if stat["ci_low"] is not None else "n/a"
+def _cost(cfg: CompareJob, task: Task, checkpoints: dict[str, str], results: dict[str, list[ArmResult]],
+          tests: dict) -> dict | None:
+    """Each arm's pretraining cost from its run folder, its gain per hour, and the checkpoint curve of a run whose
+    checkpoints are several arms."""
+    from adapt.evaluation.adaptation_cost import arm_cost, gain_per_hour, recommend
+
+    metric = cfg.significance.primary_metric
+    costs = {arm: c for arm, path in checkpoints.items() if arm != cfg.reference_arm
+             and (c := arm_cost(path)) is not None}
+    if not costs:
+        return None
+    arms = []
+    for arm, c in costs.items():
+        primary = tests[f"{arm} vs {cfg.reference_arm}"]["primary"][metric]
+        arms.append({"arm": arm, **c, "metric": metric, "gain": primary["difference"], "gain_ci_low": primary["ci_low"],
+                     "gain_ci_high": primary["ci_high"],
+                     **{f"gain_per_hour{'' if k == 'difference' else '_' + k}": v
+                        for k, v in gain_per_hour(c, primary).items()}})
+    out: dict = {"arms": arms, "curves": []}
+    test = _pair_test(cfg, task, metric)
+    by_run: dict[str, list[str]] = {}
+    for arm, c in costs.items():
+        by_run.setdefault(c["run"], []).append(arm)
+    for run_dir, members in by_run.items():
+        if len(members) < 2:
+            continue
+        members.sort(key=lambda a: costs[a]["step"] or 0)
+        points = [{"arm": a, "step": costs[a]["step"], "tokens_seen": costs[a]["tokens_seen"],
+                   "vs_reference": tests[f"{a} vs {cfg.reference_arm}"]["primary"][metric]} for a in members]
+        steps = [test(task.test.label_ids, [r.test_predictions for r in results[b]],
+                      [r.test_predictions for r in results[a]]) for a, b in zip(members, members[1:])]
+        out["curves"].append({"run": run_dir, "metric": metric, "points": points, "step_differences": steps,
+                              "recommendation": recommend(points, steps)})
+    return out
 
 
-def summary_lines(doc: dict) -> list[str]:
-    width = max(len(a) for a in doc["arms"])
-    lines = []
-    for arm, rec in doc["arms"].items():
-        n = len(rec["per_seed"])
-        runs = "deterministic" if arm == TFIDF_ARM else f"{n} seed{'s' if n != 1 else ''}"
-        lines.append(f"{arm:<{width}}  accuracy {_pm(rec['test_accuracy'])}  macro-F1 {_pm(rec['test_macro_f1'])} "
-                     f"({runs})")
-    for v in doc["verdict"].values():
-        lines.append(f"verdict: {v['text']}")
-        lines.extend(f"  caution: {c}" for c in v["cautions"])
-    return lines
-
-
-def render_markdown(doc: dict) -> str:
-    conf = round(100 * doc["confidence"])
-    t = doc["task"]
-    out = ["# Comparison of fine-tuned arms", "",
-           f"Task `{t['dir']}`: {len(t['labels'])} labels ({', '.join(t['labels'])}); sizes "
-           + ", ".join(f"{k} {v}" for k, v in t["sizes"].items()) + f". Seeds: {doc['seeds']}.", "",
-           f"| arm | test accuracy (mean ± sd) | {conf}% CI | test macro-F1 (mean ± sd) | {conf}% CI | runs |",
-           "|---|---|---|---|---|---|"]
-    for arm, rec in doc["arms"].items():
-        a, f = rec["test_accuracy"], rec["test_macro_f1"]
-        out.append(f"| {arm} | {_pm(a)} | {_ci(a)} | {_pm(f)} | {_ci(f)} | {len(rec['per_seed'])} |")
-    out += ["", "CIs over seeds are t-intervals (too few seeds give wide or no intervals).", "",
-            "## Primary test: seeds and test examples", "",
-           "The verdict's test: the seed-averaged difference with a t-interval whose variance adds the spread "
-           "over fine-tuning seeds (paired by seed) and a bootstrap over test examples (Welch–Satterthwaite "
-           "degrees of freedom); p two-sided, Holm-adjusted over the arms compared with the reference.", "",
-           f"| pair | metric | difference | {conf}% CI | p | SE from seeds | SE from examples | smallest "
-           "detectable (80% power) |", "|---|---|---|---|---|---|---|---|"]
-    for key, pair in doc["tests"].items():
-        for m in METRICS:
-            q = pair["primary"][m]
-            out.append(f"| {key} | {METRIC_NAMES[m]} | {q['difference']:+.3f} | {q['ci_low']:+.3f} to "
-                       f"{q['ci_high']:+.3f} | {q['p_value']:.3g} | {q['seed_variance'] ** 0.5:.3f} | "
-                       f"{q['example_variance'] ** 0.5:.3f} | {q['min_detectable']:.3f} |")
-    out += ["", "## Secondary tests on the test examples (seeds fixed: test-set sampling only)", ""]
-    for key, pair in doc["tests"].items():
-        out += [f"### {key}", "", f"| metric | difference | {conf}% bootstrap CI | bootstrap p (better) | "
-                f"permutation p (better) | permutation p (worse) |", "|---|---|---|---|---|---|"]
-        for m in METRICS:
-            b, p = pair["bootstrap"][m], pair["permutation"][m]
-            out.append(f"| {METRIC_NAMES[m]} | {b['difference']:+.3f} | {b['ci_low']:+.3f} to {b['ci_high']:+.3f} "
-                       f"| {b['p_better']:.3g} | {p['p_better']:.3g} | {p['p_worse']:.3g} |")
-        mc = pair["mcnemar_majority_vote"]
-        out += ["", f"McNemar exact test (it tests accuracy of the majority vote over seeds, not macro-F1): "
-                f"{mc['only_a_correct']} examples only "
-                f"{pair['arm']} got right, {mc['only_b_correct']} only {pair['reference']}; p = {mc['p_value']:.3g}. "
-                "Per seed: "
-                + ", ".join(f"{x['p_value']:.3g}" for x in pair["mcnemar_per_seed"]) + ".", ""]
-    out += ["## Verdict", ""]
-    for v in doc["verdict"].values():
-        out.append(f"- **{v['pair']}**: {v['text']}")
-        out.extend(f"  - caution: {c}" for c in v["cautions"])
-    if not doc["verdict"]:
-        out.append("- no comparison: only the reference arm was fine-tuned")
-    out += ["", f"> {CAUTION}", ""]
-    return "\n".join(out)
+def _write_predictions(out: Path, task: Task, results: dict[str, list[ArmResult]]) -> list[str]:
+    """predictions.jsonl for test, predictions-<name>.jsonl for each further test set; returns the file names."""
+    names = []
+    for name, split in [("test", task.test), *task.other_tests.items()]:
+        # texts are left out on purpose: task files may hold sensitive text; the index points back into the file
+        lines = []
+        for i, gold in enumerate(split.label_ids):
+            pred = {arm: [task.labels[(r.test_predictions if name == "test" else r.other_predictions[name])[i]]
+                          for r in runs] for arm, runs in results.items()}
+            seeds = {arm: [r.seed for r in runs] for arm, runs in results.items()}
+            lines.append(json.dumps({"index": i, "gold": task.labels[gold], "predicted": pred, "seeds": seeds},
+                                    ensure_ascii=False))
+        names.append("predictions.jsonl" if name == "test" else f"predictions-{name}.jsonl")
+        atomic_write_text(out / names[-1], "\n".join(lines) + "\n")
+    return names
 
 
 def run(cfg: CompareJob) -> dict:
     """Fine-tune and evaluate every arm × seed, run the paired tests, write the outputs."""
-    task = read_task(cfg.task.dir, cfg.task.text_field, cfg.task.label_field, cfg.task.allow_missing_test_labels)
+    task = read_task(cfg.task.dir, cfg.task.text_field, cfg.task.label_field, cfg.task.allow_missing_test_labels,
+                     dict(cfg.task.other_tests))
     checkpoints = {arm: resolve_checkpoint(arm, cfg.arms[arm]) for arm in _ordered_arms(cfg)}
     # imports torch: only after the inputs were checked
     from adapt.common.runtime import apply_threads, resolve_device, resolve_precision
+    from adapt.evaluation.domain_gap import domain_gap
 
     apply_threads(cfg.runtime)
     precision = resolve_precision(cfg.runtime, resolve_device(cfg.runtime))  # once for every arm × seed
     folder = RunFolder(cfg.out_dir, "compare", cfg, inputs=task.files + [Path(c) for c in checkpoints.values()],
                        seed=cfg.significance.seed)
+    metric, conf = cfg.significance.primary_metric, cfg.significance.confidence
     try:
+        _check_arms(cfg, checkpoints)
         results = _run_arms(cfg, task, checkpoints, precision.precision)
         tests, verdicts = _tests(cfg, task, results)
+        extras = {"domain_gap": domain_gap(task, results, cfg.reference_arm, metric, conf,
+                                           _pair_test(cfg, task, metric)) if task.other_tests else None,
+                  "label_budget": _label_budget(cfg, task, checkpoints, precision.precision, results),
+                  "cost": _cost(cfg, task, checkpoints, results, tests)}
     except BaseException:
         folder.finish(status="failed", precision=precision.record())
         raise
-    conf = cfg.significance.confidence
     doc = {"task": {"dir": str(task.dir), "labels": task.labels, "sizes": task.sizes,
                     "files": [str(f) for f in task.files]},
            "seeds": list(cfg.seeds), "confidence": conf, "reference_arm": cfg.reference_arm,
+           "primary_metric": metric,
            "arms": {arm: _arm_record(checkpoints.get(arm, "tfidf+logistic-regression"), runs, conf)
                     for arm, runs in results.items()},
-           "tests": tests, "verdict": verdicts, "precision": precision.precision, "caution": CAUTION}
+           "tests": tests, "verdict": verdicts,
+           **{k: v for k, v in extras.items() if v is not None},
+           "precision": precision.precision, "caution": CAUTION}
     out = Path(cfg.out_dir)
     atomic_write_json(out / "comparison.json", doc)
-    _write_predictions(out / "predictions.jsonl", task, results)
+    predictions = _write_predictions(out, task, results)
     atomic_write_text(out / "comparison.md", render_markdown(doc))
-    folder.finish(outputs=["comparison.json", "predictions.jsonl", "comparison.md"], precision=precision.record())
+    folder.finish(outputs=["comparison.json", *predictions, "comparison.md"], precision=precision.record())
     lines = summary_lines(doc) + [f"wrote {out / 'comparison.md'}"]
     return {"summary": lines, "comparison": doc, "out_dir": str(out)}

@@ -51,6 +51,7 @@ def test_compare_passes_its_remote_code_setting_to_every_arm(monkeypatch):
 
     monkeypatch.setattr(ft, "finetune", fake_finetune)
     cfg = CompareJob(arms={"base": "b", "adapted": "a"}, seeds=[0], tfidf_baseline=False, trust_remote_code=True)
+    compare._check_arms(cfg, {"base": "b", "adapted": "a"})
     compare._run_arms(cfg, None, {"base": "b", "adapted": "a"}, precision="fp32")
     assert seen == [True] * 4  # two checks, two fine-tuning runs
 

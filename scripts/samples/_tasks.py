@@ -4,6 +4,10 @@ legal:    short case summary  -> area of law (tenancy/employment/contract/family
 clinical: triage/referral note -> specialty (cardiology/respiratory/neurology/
           gastroenterology)
 
+Each task also has a second test set of another document type, ``test_letters``
+(client letters and emails; clinic and discharge letters): the same labels and
+terms, other openers and other filler, for a domain-gap comparison.
+
 The tasks are deliberately hard to saturate: many examples carry no
 characteristic term at all, others mention a term of another class as a
 distractor, vocabulary is shared between classes, and a fixed share of labels
@@ -21,8 +25,8 @@ import _world as W
 from _grammar import Grammar, tidy, word_count
 from _terms import CLINICAL_KIND, CLINICAL_TERMS, LEGAL_MASS, LEGAL_PARTY, LEGAL_TERMS, SEEN
 
-SIZES = {"train": 240, "dev": 80, "test": 200}
-NOISE_PER_CLASS = {"train": 5, "dev": 2, "test": 5}   # ~8-10% label noise
+SIZES = {"train": 240, "dev": 80, "test": 200, "test_letters": 120}
+NOISE_PER_CLASS = {"train": 5, "dev": 2, "test": 5, "test_letters": 3}   # ~8-10% label noise
 # Per task: P(characteristic term of the class), P(second one), P(term of
 # another class as a distractor), P(weak class-leaning sentence).
 PARAMS = {
@@ -36,10 +40,13 @@ MIN_WORDS, MAX_WORDS = 25, 60
 (
     LEGAL_OPEN, LEGAL_FRAMES, LEGAL_CLASS_FRAMES, LEGAL_WEAK, LEGAL_DISTRACT, LEGAL_FILL, CLIN_OPEN,
     CLIN_FRAMES, CLIN_CLASS_FRAMES, CLIN_WEAK, CLIN_SHARED, CLIN_DISTRACT, CLIN_FILL,
+    LEGAL_LETTER_OPEN, LEGAL_LETTER_FILL, CLIN_LETTER_OPEN, CLIN_LETTER_FILL,
 ) = _data.tables("tasks", """
     LEGAL_OPEN LEGAL_FRAMES LEGAL_CLASS_FRAMES LEGAL_WEAK LEGAL_DISTRACT LEGAL_FILL CLIN_OPEN
     CLIN_FRAMES CLIN_CLASS_FRAMES CLIN_WEAK CLIN_SHARED CLIN_DISTRACT CLIN_FILL
+    LEGAL_LETTER_OPEN LEGAL_LETTER_FILL CLIN_LETTER_OPEN CLIN_LETTER_FILL
 """)
+LETTERS = "test_letters"
 
 
 def _slots() -> dict:
@@ -72,6 +79,8 @@ def _example(g: Grammar, label: str, terms: dict, split: str, legal: bool) -> st
         g.ctx = {"age": str(rng.randint(18, 93))}
         opens, frames, cframes, weak, distract, fill = (CLIN_OPEN, CLIN_FRAMES, CLIN_CLASS_FRAMES,
                                                         CLIN_WEAK, CLIN_DISTRACT, CLIN_FILL)
+    if split == LETTERS:  # another document type: the same content, other openers and filler
+        opens, fill = (LEGAL_LETTER_OPEN, LEGAL_LETTER_FILL) if legal else (CLIN_LETTER_OPEN, CLIN_LETTER_FILL)
     body: list[str] = []
     p = PARAMS["legal" if legal else "clinical"]
 
@@ -146,8 +155,11 @@ def _split(g: Grammar, terms: dict, split: str, legal: bool) -> list[dict]:
 def make_tasks(rng: random.Random) -> dict[str, dict[str, list[dict]]]:
     g = Grammar(rng, _slots())
     out: dict[str, dict[str, list[dict]]] = {}
-    for name, terms, legal in [("legal", LEGAL_TERMS, True), ("clinical", CLINICAL_TERMS, False)]:
-        out[name] = {split: _split(g, terms, split, legal) for split in SIZES}
+    kinds = [("legal", LEGAL_TERMS, True), ("clinical", CLINICAL_TERMS, False)]
+    for name, terms, legal in kinds:
+        out[name] = {split: _split(g, terms, split, legal) for split in SIZES if split != LETTERS}
+    for name, terms, legal in kinds:  # drawn after the others, so that adding them changed none of those
+        out[name][LETTERS] = _split(g, terms, LETTERS, legal)
     return out
 
 

@@ -25,6 +25,8 @@ def test_demo_chain_runs_on_the_samples(tmp_path):
     text = "\n".join(result["summary"])
     assert "pseudo-perplexity" in text and "verdict" in text and "not legal or medical advice" in text
     assert "paired ratio adapted / base" in text and "resampling documents" in text
+    assert "domain gap (macro-F1, index: base on test = 100):" in text and "adapted on letters:" in text
+    assert "cost: adapted took" in text and "per hour of pretraining" in text
     assert result["summary"][-1] == f"report: {(out / 'report' / 'report.html').resolve()}"
     timings = json.loads((out / "demo.json").read_text())["timings_seconds"]
     assert {"prepare", "pretrain", "compare"} <= set(timings)

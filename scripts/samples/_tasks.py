@@ -6,7 +6,8 @@ clinical: triage/referral note -> specialty (cardiology/respiratory/neurology/
 
 Each task also has a second test set of another document type, ``test_letters``
 (client letters and emails; clinic and discharge letters): the same labels and
-terms, other openers and other filler, for a domain-gap comparison.
+terms, other openers and other filler, and fewer characteristic terms and class-leaning sentences,
+for a domain-gap comparison.
 
 The tasks are deliberately hard to saturate: many examples carry no
 characteristic term at all, others mention a term of another class as a
@@ -33,6 +34,7 @@ PARAMS = {
     "legal": {"cue": 0.48, "second": 0.15, "distractor": 0.55, "weak": 0.5},
     "clinical": {"cue": 0.82, "second": 0.2, "distractor": 0.4, "weak": 0.85},
 }
+LETTER_SHARE = 0.5  # test_letters: share of the usual P(characteristic term) and P(weak class-leaning sentence)
 MIN_WORDS, MAX_WORDS = 25, 60
 
 # Sentence templates (syntax of _grammar; {cue} is a characteristic term) in data/tasks.json: openers,
@@ -83,6 +85,8 @@ def _example(g: Grammar, label: str, terms: dict, split: str, legal: bool) -> st
         opens, fill = (LEGAL_LETTER_OPEN, LEGAL_LETTER_FILL) if legal else (CLIN_LETTER_OPEN, CLIN_LETTER_FILL)
     body: list[str] = []
     p = PARAMS["legal" if legal else "clinical"]
+    if split == LETTERS:  # letters name the technical term and lean towards the class less often
+        p = {**p, "cue": p["cue"] * LETTER_SHARE, "weak": p["weak"] * LETTER_SHARE}
 
     def phrase(term: str) -> tuple[str, str]:
         """(text to insert, kind) for a characteristic term."""

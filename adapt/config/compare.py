@@ -30,6 +30,9 @@ class TaskConfig:
     # Further test sets, name -> file (relative to dir, or absolute; same fields and labels), e.g. another document
     # type or source: every arm is scored on each, and the domain-gap table sets the reference arm on test = 100.
     other_tests: dict[str, str] = field(default_factory=dict)
+    # Splits a csv/tsv label cell into several labels (e.g. "|"), making the task multi-label; null = one label
+    # per cell. (A jsonl label field holding a list makes a task multi-label without it.)
+    label_delimiter: str | None = None
 
 
 @dataclass
@@ -128,6 +131,10 @@ def validate(cfg: CompareJob, p: Problems, prefix: str = "", arms_required: bool
         p.check(arm in cfg.arms and control in cfg.arms and arm != control,
                 f"{k}controls.{arm}={control}: both must be fine-tuned arms and differ (arms: {sorted(cfg.arms)}); "
                 f"e.g. {k}controls.adapted=general_control")
+    delimiter = cfg.task.label_delimiter
+    p.check(delimiter is None or bool(str(delimiter).strip()),
+            f"{k}task.label_delimiter={delimiter!r} must be a non-blank string, or null for one label per cell; "
+            f"e.g. {k}task.label_delimiter='|'")
     for name, path in cfg.task.other_tests.items():
         p.check(bool(str(path or "").strip()) and name != "test" and re.fullmatch(r"[\w-]+", name) is not None,
                 f"{k}task.other_tests.{name}: give a file, under a name of letters, digits, _ or - other than 'test'")

@@ -6,6 +6,10 @@ Formats: .jsonl (one JSON object per line), .csv and .tsv (a header row), each o
 must be UTF-8 (a byte-order mark is allowed); other bytes are refused with one clear error rather than guessed.
 Labels are kept as strings and numbered in sorted order of the training labels, so every arm and every run sees
 the same label ids. Input files are only read, never changed.
+
+Multi-label tasks: a .jsonl label field holding a list of strings (``["tenancy", "contract"]``; ``[]`` = no
+label) makes the task multi-label, a scalar in the same task counting as a one-label list; in .csv/.tsv the
+``label_delimiter`` (task.label_delimiter) splits the label cell (an empty cell = no label).
 """
 
 from __future__ import annotations
@@ -37,17 +41,18 @@ class Example:
 
     line: int
     text: str
-    label: str | None = None
+    label: str | list[str] | None = None  # a list only where label lists are allowed (read_task)
     id: str | None = None
 
 
 @dataclass
 class Split:
-    """One split: texts and label ids (indices into ``Task.labels``)."""
+    """One split: texts and label ids (indices into ``Task.labels``): one id per example, or in a multi-label
+    task a sorted list of ids per example (possibly empty)."""
 
     file: Path
     texts: list[str] = field(default_factory=list)
-    label_ids: list[int] = field(default_factory=list)
+    label_ids: list = field(default_factory=list)  # list[int], or list[list[int]] when multi-label
 
     def __len__(self) -> int:
         return len(self.texts)
@@ -62,6 +67,8 @@ class Task:
     test: Split
     # further test sets (name -> split), e.g. other document types or sources, scored by every arm
     other_tests: dict[str, Split] = field(default_factory=dict)
+    # several labels per example (Split.label_ids holds a list of ids per example)
+    multi_label: bool = False
 
     @property
     def files(self) -> list[Path]:
@@ -75,7 +82,7 @@ class Task:
     def with_train_subset(self, rows: list[int]) -> "Task":
         """The same task trained on ``rows`` of train only (dev and every test set unchanged)."""
         train = Split(self.train.file, [self.train.texts[i] for i in rows], [self.train.label_ids[i] for i in rows])
-        return Task(self.dir, self.labels, train, self.dev, self.test, self.other_tests)
+        return Task(self.dir, self.labels, train, self.dev, self.test, self.other_tests, self.multi_label)
 
 
 def labelled_format(path: Path) -> tuple[str | None, bool]:
@@ -160,14 +167,46 @@ def _rows(path: Path) -> list[tuple[int, dict]]:
         raise InputError(f"{path}: broken {kind.upper()} ({exc}); fix the quoting") from exc
 
 
+def _label_list(path: Path, n: int, name: str, value: list, delimiter: str | None) -> list[str]:
+    """The labels of a jsonl list (or of a split csv/tsv cell): non-empty strings, duplicates dropped."""
+    bad = [v for v in value if not isinstance(v, (str, int)) or isinstance(v, bool) or str(v).strip() == ""]
+    if bad:
+        fix = (f"write each label between {delimiter!r} once, e.g. 'a{delimiter}b'" if delimiter is not None
+               else 'write a list of non-empty label strings, e.g. ["a", "b"]')
+        raise InputError(f"{path}:{n}: field {name!r} holds an empty or non-text label ({bad[0]!r}); {fix}")
+    return list(dict.fromkeys(str(v).strip() for v in value))
+
+
+def _read_label(path: Path, n: int, name: str, value, is_jsonl: bool, lists: bool,
+                delimiter: str | None) -> str | list[str]:
+    """One example's label: a string, or a list of strings where ``lists`` allows label lists."""
+    if lists and is_jsonl and isinstance(value, list):
+        return _label_list(path, n, name, value, None)
+    if lists and not is_jsonl and delimiter is not None:
+        cell = str(value).strip()
+        return _label_list(path, n, name, cell.split(delimiter), delimiter) if cell else []
+    if isinstance(value, (dict, list)) or str(value).strip() == "":
+        raise InputError(f"{path}:{n}: field {name!r} must be a single non-empty label, got {value!r}"
+                         + ("; to give several labels (or none) in a csv/tsv cell, set task.label_delimiter, "
+                            "e.g. task.label_delimiter='|'" if lists and not is_jsonl else ""))
+    if lists and is_jsonl and delimiter is not None and delimiter in str(value):
+        raise InputError(f"{path}:{n}: field {name!r} is {value!r}, holding task.label_delimiter={delimiter!r}, "
+                         "which splits csv/tsv cells only; in a jsonl file write the labels as a JSON list, "
+                         f"e.g. {json.dumps(str(value).split(delimiter))}")
+    return str(value).strip()
+
+
 def read_labelled_file(path: Path | str, text_field: str = "text", label_field: str | None = None,
-                       key_prefix: str = "task") -> list[Example]:
+                       key_prefix: str = "task", label_lists: bool = False,
+                       label_delimiter: str | None = None) -> list[Example]:
     """Examples of one labelled file, each with a non-empty text, and a label when ``label_field`` is given.
 
     ``key_prefix`` is the config group whose ``text_field`` / ``label_field`` chose the fields (task, quality,
-    contamination), named in the messages."""
+    contamination), named in the messages. With ``label_lists`` a jsonl label may be a list of strings, and a
+    csv/tsv label cell is split at ``label_delimiter`` when that is set; such labels come back as lists."""
     path = Path(path)
     rows = _rows(path)
+    is_jsonl = labelled_format(path)[0] == "jsonl"
     wanted = [(text_field, "text")] + ([(label_field, "label")] if label_field is not None else [])
     if not rows:
         raise InputError(f"{path}: no examples; add at least one line with "
@@ -184,25 +223,34 @@ def read_labelled_file(path: Path | str, text_field: str = "text", label_field: 
             raise InputError(f"{path}:{n}: field {text_field!r} is empty or not text; give every example a text")
         label = None
         if label_field is not None:
-            label = row[label_field]
-            if isinstance(label, (dict, list)) or str(label).strip() == "":
-                raise InputError(f"{path}:{n}: field {label_field!r} must be a single non-empty label, "
-                                 f"got {label!r}")
-            label = str(label).strip()
+            label = _read_label(path, n, label_field, row[label_field], is_jsonl, label_lists, label_delimiter)
         rid = row.get("id")
         examples.append(Example(n, text, label, None if rid in (None, "") else str(rid)))
     return examples
 
 
-def _checked_split(file: Path, pairs: list[tuple[str, str]], labels: list[str], train_name: str, what: str,
-                   allow_missing: bool) -> Split:
+def _labels_of(examples: list[Example], multi: bool) -> list[list[str]]:
+    """Each example's labels as a list (a scalar label is a one-label list)."""
+    return [(e.label if isinstance(e.label, list) else [e.label]) for e in examples] if multi else \
+        [[e.label] for e in examples]
+
+
+def _ids(labels: list[list[str]], index: dict[str, int], multi: bool) -> list:
+    return [sorted(index[lab] for lab in labs) for labs in labels] if multi else [index[labs[0]] for labs in labels]
+
+
+def _checked_split(file: Path, examples: list[Example], labels: list[str], train_name: str, what: str,
+                   allow_missing: bool, multi: bool) -> Split:
     """A dev or test split in the task's label ids; labels unseen in train are refused, and a test set lacking a
     task label too unless ``allow_missing``."""
-    unseen = sorted({lab for _, lab in pairs} - set(labels))
+    per_example = _labels_of(examples, multi)
+    seen = {lab for labs in per_example for lab in labs}
+    unseen = sorted(seen - set(labels))
     if unseen:
-        raise InputError(f"{file}: label(s) {unseen[:5]} do not occur in {train_name}; add training "
-                         f"examples for them or remove them from {file.name}")
-    missing = sorted(set(labels) - {lab for _, lab in pairs})
+        line = next(e.line for e, labs in zip(examples, per_example) if unseen[0] in labs)
+        raise InputError(f"{file}: label(s) {unseen[:5]} do not occur in {train_name} (first {unseen[0]!r} at "
+                         f"{file.name}:{line}); add training examples for them or remove them from {file.name}")
+    missing = sorted(set(labels) - seen)
     if missing and what == "test" and not allow_missing:
         raise InputError(f"{file}: no example of label {missing[0]!r}"
                          + (f" (nor {missing[1:5]})" if len(missing) > 1 else "")
@@ -212,14 +260,29 @@ def _checked_split(file: Path, pairs: list[tuple[str, str]], labels: list[str], 
         log.warning("%s has no example of label(s) %s; macro-F1 still averages over all %d task labels, "
                     "counting F1 = 0 for a label without examples", file, missing, len(labels))
     index = {lab: i for i, lab in enumerate(labels)}
-    return Split(file, [t for t, _ in pairs], [index[lab] for _, lab in pairs])
+    return Split(file, [e.text for e in examples], _ids(per_example, index, multi))
+
+
+def _is_multi(examples: dict[str, list[Example]], files: dict[str, Path], delimiter: str | None) -> bool:
+    """Multi-label when a jsonl label is a list or a csv/tsv file is split at the delimiter; an empty label
+    list is only allowed then (checked by the reader), and every jsonl file then counts scalars as lists."""
+    if any(isinstance(e.label, list) for exs in examples.values() for e in exs):
+        return True
+    tabular = [f for f in files.values() if labelled_format(f)[0] != "jsonl"]
+    if delimiter is not None and not tabular:
+        raise InputError(f"task.label_delimiter={delimiter!r} is set but every task file is jsonl, where it does "
+                         "not apply; write label lists as JSON lists (\"label\": [\"a\", \"b\"]) and unset "
+                         "task.label_delimiter (null)")
+    return delimiter is not None
 
 
 def read_task(task_dir: Path | str, text_field: str = "text", label_field: str = "label",
-              allow_missing_test_labels: bool = False, other_tests: dict[str, str] | None = None) -> Task:
+              allow_missing_test_labels: bool = False, other_tests: dict[str, str] | None = None,
+              label_delimiter: str | None = None) -> Task:
     """Read and check train/dev/test of a task folder, and the further test files ``other_tests`` (name ->
     file, a path relative to the task folder or absolute). A test set lacking one of the training labels is
-    refused unless ``allow_missing_test_labels``."""
+    refused unless ``allow_missing_test_labels``. A jsonl label list, or ``label_delimiter`` for csv/tsv cells,
+    makes the task multi-label (see the module notes)."""
     task_dir = Path(task_dir)
     files = find_split_files(task_dir, "task.dir")
     for name, path in (other_tests or {}).items():
@@ -228,18 +291,21 @@ def read_task(task_dir: Path | str, text_field: str = "text", label_field: str =
             raise InputError(f"task.other_tests.{name}={path}: file does not exist (relative paths start at "
                              f"task.dir={task_dir}); give a {FORMAT_NAMES} file with the task's fields")
         files[f"test:{name}"] = f
-    pairs = {s: [(e.text, e.label) for e in read_labelled_file(f, text_field, label_field, "task")]
-             for s, f in files.items()}
-    counts = Counter(label for _, label in pairs["train"])
+    examples = {s: read_labelled_file(f, text_field, label_field, "task", True, label_delimiter)
+                for s, f in files.items()}
+    multi = _is_multi(examples, files, label_delimiter)
+    train_labels = _labels_of(examples["train"], multi)
+    counts = Counter(lab for labs in train_labels for lab in labs)
     if len(counts) < 2:
         raise InputError(f"{files['train']}: only {len(counts)} class ({', '.join(counts)}); a classification task "
                          f"needs at least 2 labels in the training split")
     labels = sorted(counts)
     index = {lab: i for i, lab in enumerate(labels)}
-    train = Split(files["train"], [t for t, _ in pairs["train"]], [index[lab] for _, lab in pairs["train"]])
-    splits = {s: _checked_split(files[s], pairs[s], labels, files["train"].name, "dev" if s == "dev" else "test",
-                                allow_missing_test_labels) for s in files if s != "train"}
+    train = Split(files["train"], [e.text for e in examples["train"]], _ids(train_labels, index, multi))
+    splits = {s: _checked_split(files[s], examples[s], labels, files["train"].name, "dev" if s == "dev" else "test",
+                                allow_missing_test_labels, multi) for s in files if s != "train"}
     others = {s.split(":", 1)[1]: split for s, split in splits.items() if s.startswith("test:")}
-    task = Task(dir=task_dir, labels=labels, train=train, dev=splits["dev"], test=splits["test"], other_tests=others)
-    log.info("task %s: %d labels, sizes %s", task_dir, len(labels), task.sizes)
+    task = Task(dir=task_dir, labels=labels, train=train, dev=splits["dev"], test=splits["test"], other_tests=others,
+                multi_label=multi)
+    log.info("task %s: %d labels%s, sizes %s", task_dir, len(labels), " (multi-label)" if multi else "", task.sizes)
     return task

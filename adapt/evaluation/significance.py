@@ -2,7 +2,10 @@
 over test examples, Holm's correction over arms, verdict wording.
 
 Predictions come as integer arrays of shape (S, n): S fine-tuning seeds × n test examples, the same seeds and
-examples for both arms, so every test is paired (Dror et al. 2018 recommend paired tests for this setting).
+examples for both arms, so every test is paired (Dror et al. 2018 recommend paired tests for this setting). A
+multi-label task gives binary indicator arrays instead: gold (n, C) and predictions (S, n, C) over the task's C
+labels (``indicator_matrix``); accuracy is then exact-match (subset) accuracy and an example is "correct" when
+its whole label set is, while macro-F1 counts true/false positives per label as before.
 
 - ``summarize``: mean, sd and a t-interval over seeds (seed-to-seed spread; Dodge et al. 2020).
 - ``seed_aware_difference``: the primary test, its variance from seeds and from test examples (see there).
@@ -62,12 +65,36 @@ def _as_runs(preds: np.ndarray | list, n: int) -> np.ndarray:
     return p
 
 
+def indicator_matrix(label_ids: list[list[int]], n_classes: int) -> np.ndarray:
+    """(n, C) 0/1 matrix of per-example label-id lists (a multi-label task's gold or one seed's predictions)."""
+    out = np.zeros((len(label_ids), n_classes), dtype=np.int64)
+    for i, ids in enumerate(label_ids):
+        out[i, list(ids)] = 1
+    return out
+
+
+def _as_matrix_runs(preds: np.ndarray | list, n: int, c: int) -> np.ndarray:
+    p = np.asarray(preds, dtype=np.int64)
+    p = p[None] if p.ndim == 2 else p
+    if p.ndim != 3 or p.shape[1:] != (n, c) or not np.isin(p, (0, 1)).all():
+        raise ValueError(f"multi-label predictions must be 0/1 arrays of shape (seeds, {n}, {c}); got {p.shape}")
+    return p
+
+
 def _indicators(gold: np.ndarray, pred: np.ndarray, n_classes: int) -> tuple[np.ndarray, ...]:
-    """Per-example one-hot true positives, false positives, false negatives: each (n, C) float."""
-    g = np.eye(n_classes)[gold]
-    q = np.eye(n_classes)[pred]
+    """Per-example one-hot true positives, false positives, false negatives: each (n, C) float; from label ids
+    (n,), or from the 0/1 indicator matrices (n, C) of a multi-label task."""
+    g = gold.astype(float) if gold.ndim == 2 else np.eye(n_classes)[gold]
+    q = pred.astype(float) if gold.ndim == 2 else np.eye(n_classes)[pred]
     tp = g * q
     return tp, q - tp, g - tp
+
+
+def _with_correct(gold: np.ndarray, pred: np.ndarray, n_classes: int) -> tuple[np.ndarray, ...]:
+    """_indicators and per-example correctness (n,) float: the label matches, or in a multi-label task the whole
+    label set does (exact match)."""
+    tp, fp, fn = _indicators(gold, pred, n_classes)
+    return tp, fp, fn, (gold == pred).all(axis=1).astype(float) if gold.ndim == 2 else tp.sum(axis=1)
 
 
 def macro_f1_from_counts(tp: np.ndarray, fp: np.ndarray, fn: np.ndarray) -> np.ndarray:
@@ -83,26 +110,33 @@ class _PairedCounts:
 
     def __init__(self, gold, preds_a, preds_b, n_classes: int | None = None):
         self.gold = np.asarray(gold, dtype=np.int64)
-        n = self.gold.size
+        n = self.gold.shape[0] if self.gold.ndim else 0
         if n == 0:
             raise ValueError("paired tests need at least one test example")
-        self.a, self.b = _as_runs(preds_a, n), _as_runs(preds_b, n)
+        if self.gold.ndim == 2:  # multi-label: 0/1 matrices over the task's labels
+            c = self.gold.shape[1]
+            if n_classes is not None and c != n_classes or not np.isin(self.gold, (0, 1)).all():
+                raise ValueError(f"multi-label gold must be a 0/1 matrix over the task's {n_classes} labels")
+            self.a, self.b = _as_matrix_runs(preds_a, n, c), _as_matrix_runs(preds_b, n, c)
+        else:
+            self.a, self.b = _as_runs(preds_a, n), _as_runs(preds_b, n)
         if self.a.shape != self.b.shape:
             raise ValueError(f"both arms need the same seeds: shapes {self.a.shape} and {self.b.shape}")
         self.n, self.seeds = n, self.a.shape[0]
-        seen = int(max(self.gold.max(), self.a.max(), self.b.max())) + 1
-        if n_classes is not None and seen > n_classes:
-            raise ValueError(f"label id {seen - 1} is outside the task's {n_classes} labels")
-        c = n_classes or seen  # the task's label set: every metric averages over the same labels
-        self.ind_a = [_indicators(self.gold, self.a[s], c) for s in range(self.seeds)]
-        self.ind_b = [_indicators(self.gold, self.b[s], c) for s in range(self.seeds)]
+        if self.gold.ndim == 1:
+            seen = int(max(self.gold.max(), self.a.max(), self.b.max())) + 1
+            if n_classes is not None and seen > n_classes:
+                raise ValueError(f"label id {seen - 1} is outside the task's {n_classes} labels")
+            c = n_classes or seen  # the task's label set: every metric averages over the same labels
+        self.ind_a = [_with_correct(self.gold, self.a[s], c) for s in range(self.seeds)]
+        self.ind_b = [_with_correct(self.gold, self.b[s], c) for s in range(self.seeds)]
 
     def metrics(self, weights: np.ndarray, ind: list) -> dict[str, np.ndarray]:
         """Seed-averaged accuracy and macro-F1 for each row of example weights (R, n) -> (R,)."""
         acc = np.zeros(weights.shape[0])
         f1 = np.zeros(weights.shape[0])
-        for tp, fp, fn in ind:
-            acc += (weights @ tp.sum(axis=1)) / weights.sum(axis=1)
+        for tp, fp, fn, correct in ind:
+            acc += (weights @ correct) / weights.sum(axis=1)
             f1 += macro_f1_from_counts(weights @ tp, weights @ fp, weights @ fn)
         return {"accuracy": acc / len(ind), "macro_f1": f1 / len(ind)}
 
@@ -250,8 +284,8 @@ def paired_permutation(gold, preds_a, preds_b, n_resamples: int, rng: np.random.
             tot_b = [ones @ xb for xb in ib]
             cnt_a = [t + d for t, d in zip(tot_a, delta)]
             cnt_b = [t - d for t, d in zip(tot_b, delta)]
-            acc += (cnt_a[0].sum(axis=1) - cnt_b[0].sum(axis=1)) / pc.n
-            f1 += macro_f1_from_counts(*cnt_a) - macro_f1_from_counts(*cnt_b)
+            acc += (cnt_a[3] - cnt_b[3]) / pc.n  # counts of correct examples
+            f1 += macro_f1_from_counts(*cnt_a[:3]) - macro_f1_from_counts(*cnt_b[:3])
         null["accuracy"].append(acc / pc.seeds)
         null["macro_f1"].append(f1 / pc.seeds)
     adjustment = 0 if exact else 1
@@ -278,15 +312,22 @@ def mcnemar_exact(correct_a, correct_b) -> dict[str, float]:
 
 
 def majority_vote(preds) -> np.ndarray:
-    """Per example, the label most seeds predicted; a tie goes to the tied label the earliest seed predicted."""
+    """Per example, the label most seeds predicted; a tie goes to the tied label the earliest seed predicted.
+    Multi-label predictions (S, n, C) vote on whole label sets the same way (an (n, C) result)."""
     p = np.asarray(preds, dtype=np.int64)
     p = p[None, :] if p.ndim == 1 else p
-    out = np.empty(p.shape[1], dtype=np.int64)
+    out = np.empty(p.shape[1:], dtype=np.int64)
     for i in range(p.shape[1]):
-        counts = Counter(p[:, i].tolist())
+        votes = [tuple(v) if p.ndim == 3 else v for v in p[:, i].tolist()]
+        counts = Counter(votes)
         top = max(counts.values())
-        out[i] = next(lab for lab in p[:, i].tolist() if counts[lab] == top)
+        out[i] = next(v for v in votes if counts[v] == top)
     return out
+
+
+def _exact(pred: np.ndarray, gold: np.ndarray) -> np.ndarray:
+    """Per-example correctness: the label, or the whole label set of a multi-label task, matches."""
+    return (pred == gold).all(axis=-1) if gold.ndim == 2 else pred == gold
 
 
 def compare_pair(gold, preds_a, preds_b, seed_metrics_a: dict[str, list[float]],
@@ -295,20 +336,22 @@ def compare_pair(gold, preds_a, preds_b, seed_metrics_a: dict[str, list[float]],
     """All paired tests of arm a against arm b; ``seed_metrics_*`` are per-seed test metrics in seed order.
     ``primary`` (seed_aware_difference) decides the verdict; the others are secondary and seeds stay fixed in them.
     """
-    a = _as_runs(preds_a, len(gold))
-    b = _as_runs(preds_b, len(gold))
     gold = np.asarray(gold, dtype=np.int64)
+    if gold.ndim == 2:
+        a, b = (_as_matrix_runs(x, *gold.shape) for x in (preds_a, preds_b))
+    else:
+        a, b = _as_runs(preds_a, len(gold)), _as_runs(preds_b, len(gold))
     boot_rng, perm_rng, primary_rng = (np.random.default_rng(s) for s in np.random.SeedSequence(seed).spawn(3))
     vote_a, vote_b = majority_vote(a), majority_vote(b)
     return {
-        "n_examples": int(gold.size),
+        "n_examples": int(gold.shape[0]),
         "n_seeds": int(a.shape[0]),
         "confidence": confidence,
         "primary": seed_aware_difference(gold, a, b, n_classes, bootstrap_resamples, primary_rng, confidence),
         "bootstrap": paired_bootstrap(gold, a, b, bootstrap_resamples, boot_rng, confidence, n_classes),
         "permutation": paired_permutation(gold, a, b, permutation_resamples, perm_rng, n_classes),
-        "mcnemar_majority_vote": mcnemar_exact(vote_a == gold, vote_b == gold),
-        "mcnemar_per_seed": [mcnemar_exact(a[s] == gold, b[s] == gold) for s in range(a.shape[0])],
+        "mcnemar_majority_vote": mcnemar_exact(_exact(vote_a, gold), _exact(vote_b, gold)),
+        "mcnemar_per_seed": [mcnemar_exact(_exact(a[s], gold), _exact(b[s], gold)) for s in range(a.shape[0])],
         # same-seed differences: how much of the effect survives seed-to-seed variation
         "seed_differences": {m: summarize(np.subtract(seed_metrics_a[m], seed_metrics_b[m]), confidence)
                              for m in METRICS},

@@ -99,6 +99,7 @@ def render_markdown(doc: dict) -> str:
     out = ["# Comparison of fine-tuned arms", "",
            f"Task `{t['dir']}`: {len(t['labels'])} labels ({', '.join(t['labels'])}); sizes "
            + ", ".join(f"{k} {v}" for k, v in t["sizes"].items()) + f". Seeds: {doc['seeds']}.", "",
+           *_multilabel_note(t),
            f"| arm | test accuracy (mean ± sd) | {conf}% CI | test macro-F1 (mean ± sd) | {conf}% CI | runs |",
            "|---|---|---|---|---|---|"]
     for arm, rec in doc["arms"].items():
@@ -126,7 +127,9 @@ def render_markdown(doc: dict) -> str:
             out.append(f"| {METRIC_NAMES[m]} | {b['difference']:+.3f} | {b['ci_low']:+.3f} to {b['ci_high']:+.3f} "
                        f"| {b['p_better']:.3g} | {p['p_better']:.3g} | {p['p_worse']:.3g} |")
         mc = pair["mcnemar_majority_vote"]
-        out += ["", f"McNemar exact test (it tests accuracy of the majority vote over seeds, not macro-F1): "
+        vote = ("exact-match accuracy of the label set most seeds predicted" if t.get("multi_label")
+                else "accuracy of the majority vote over seeds")
+        out += ["", f"McNemar exact test (it tests {vote}, not macro-F1): "
                 f"{mc['only_a_correct']} examples only "
                 f"{pair['arm']} got right, {mc['only_b_correct']} only {pair['reference']}; p = {mc['p_value']:.3g}. "
                 "Per seed: "
@@ -142,6 +145,14 @@ def render_markdown(doc: dict) -> str:
     return "\n".join(out)
 
 
+
+
+def _multilabel_note(task: dict) -> list[str]:
+    if not task.get("multi_label"):
+        return []
+    return [f"Multi-label task (several labels per example): accuracy is exact-match (subset) accuracy, macro-F1 "
+            f"the mean of the per-label F1 over all {len(task['labels'])} labels; per-seed rows in comparison.json "
+            f"add micro-F1, per-label F1 and the threshold. Decision threshold: {task['threshold_rule']}.", ""]
 
 
 def _extra_sections(doc: dict) -> list[str]:

@@ -1,7 +1,8 @@
 """The compare job: fine-tune every arm × seed on a labelled task, test the differences, state a verdict.
 
 Writes into ``out_dir``: ``comparison.json`` (per arm × seed metrics, seed summaries, paired tests, verdicts),
-``predictions.jsonl`` (one line per test example: gold label and every arm's prediction per seed),
+``predictions.jsonl`` (one line per test example: gold label and every arm's prediction per seed; lists of
+labels in a multi-label task),
 ``comparison.md`` (a readable summary) and ``manifest.json``.
 """
 
@@ -25,6 +26,11 @@ if TYPE_CHECKING:
     from adapt.evaluation.finetune import ArmResult
 
 log = logging.getLogger(__name__)
+
+THRESHOLD_RULE = ("one decision threshold per run, chosen on dev for each epoch from 0.05, 0.10, ..., 0.95 (the "
+                  "highest dev macro-F1, the smallest threshold on ties) and applied to every test set; a label is "
+                  "predicted when its sigmoid (TF-IDF arm: one-vs-rest) probability is at least the threshold")
+
 
 def resolve_checkpoint(arm: str, name_or_path: str) -> str:
     """Folder of an arm's checkpoint: the packaged alias, a model folder, or a pretrain run folder's final/."""
@@ -92,7 +98,9 @@ def _size_cautions(task: Task) -> list[str]:
         out.append(f"only {len(task.test.label_ids)} test examples (under {MIN_TEST}): intervals are wide")
     if len(task.dev.label_ids) < MIN_DEV:
         out.append(f"only {len(task.dev.label_ids)} dev examples (under {MIN_DEV}): the epoch choice is noisy")
-    counts = Counter(task.test.label_ids)
+    # per-label support: examples carrying the label (a multi-label example counts once for each of its labels)
+    counts = Counter(i for ids in task.test.label_ids for i in ids) if task.multi_label else \
+        Counter(task.test.label_ids)
     small = [task.labels[i] for i in range(len(task.labels)) if counts.get(i, 0) < MIN_CLASS]
     if small:
         out.append(f"label(s) {', '.join(small[:5])} have under {MIN_CLASS} test examples: their F1, and "
@@ -107,6 +115,19 @@ def _pairs(cfg: CompareJob) -> list[tuple[str, str, str]]:
                   if (arm, control) not in {(a, b) for a, b, _ in out}]
 
 
+def _stat_inputs(task: Task, gold: list, runs: list[list]) -> tuple:
+    """Gold and per-seed predictions as the paired tests take them: label ids, or 0/1 indicator matrices (n, C)
+    and (S, n, C) in a multi-label task."""
+    if not task.multi_label:
+        return gold, runs
+    import numpy as np
+
+    from adapt.evaluation.significance import indicator_matrix
+
+    n = len(task.labels)
+    return indicator_matrix(gold, n), np.stack([indicator_matrix(r, n) for r in runs]) if runs else runs
+
+
 def _tests(cfg: CompareJob, task: Task, results: dict[str, list[ArmResult]]) -> tuple[dict, dict]:
     from adapt.evaluation.significance import compare_pair, holm, verdict
 
@@ -114,8 +135,9 @@ def _tests(cfg: CompareJob, task: Task, results: dict[str, list[ArmResult]]) -> 
     tests, verdicts = {}, {}
     for arm, other, role in _pairs(cfg):
         runs, ref = results[arm], results[other]
-        pair = compare_pair(task.test.label_ids, [r.test_predictions for r in runs],
-                            [r.test_predictions for r in ref],
+        gold, preds_a = _stat_inputs(task, task.test.label_ids, [r.test_predictions for r in runs])
+        preds_b = _stat_inputs(task, task.test.label_ids, [r.test_predictions for r in ref])[1]
+        pair = compare_pair(gold, preds_a, preds_b,
                             {m: [getattr(r, f"test_{m}") for r in runs] for m in METRICS},
                             {m: [getattr(r, f"test_{m}") for r in ref] for m in METRICS},
                             confidence=sig.confidence, bootstrap_resamples=sig.bootstrap_resamples,
@@ -144,9 +166,10 @@ def _pair_test(cfg: CompareJob, task: Task, metric: str):  # noqa: ANN202 - doma
 
     sig = cfg.significance
 
-    def test(gold: list[int], a: list[list[int]], b: list[list[int]]) -> dict:
+    def test(gold: list, a: list[list], b: list[list]) -> dict:
         rng = np.random.default_rng(sig.seed)
-        return seed_aware_difference(gold, a, b, len(task.labels), sig.bootstrap_resamples, rng,
+        (g, pa), pb = _stat_inputs(task, gold, a), _stat_inputs(task, gold, b)[1]
+        return seed_aware_difference(g, pa, pb, len(task.labels), sig.bootstrap_resamples, rng,
                                      sig.confidence)[metric]
     return test
 
@@ -161,7 +184,9 @@ def _label_budget(cfg: CompareJob, task: Task, checkpoints: dict[str, str], prec
     if shares == [1.0]:
         return None
     metric, conf = cfg.significance.primary_metric, cfg.significance.confidence
-    subsets = budget_subsets(task.train.label_ids, shares, cfg.label_budget_seed)
+    # a multi-label task is stratified by label set, so that every label set (and label) stays represented
+    strata = [tuple(ids) for ids in task.train.label_ids] if task.multi_label else task.train.label_ids
+    subsets = budget_subsets(strata, shares, cfg.label_budget_seed)
     test = _pair_test(cfg, task, metric)
     rows = []
     for share in shares:
@@ -221,12 +246,15 @@ def _write_predictions(out: Path, task: Task, results: dict[str, list[ArmResult]
     names = []
     for name, split in [("test", task.test), *task.other_tests.items()]:
         # texts are left out on purpose: task files may hold sensitive text; the index points back into the file
+        def names_of(ids):  # noqa: ANN001, ANN202 - a label id, or a multi-label task's list of ids
+            return [task.labels[i] for i in ids] if task.multi_label else task.labels[ids]
+
         lines = []
         for i, gold in enumerate(split.label_ids):
-            pred = {arm: [task.labels[(r.test_predictions if name == "test" else r.other_predictions[name])[i]]
+            pred = {arm: [names_of((r.test_predictions if name == "test" else r.other_predictions[name])[i])
                           for r in runs] for arm, runs in results.items()}
             seeds = {arm: [r.seed for r in runs] for arm, runs in results.items()}
-            lines.append(json.dumps({"index": i, "gold": task.labels[gold], "predicted": pred, "seeds": seeds},
+            lines.append(json.dumps({"index": i, "gold": names_of(gold), "predicted": pred, "seeds": seeds},
                                     ensure_ascii=False))
         names.append("predictions.jsonl" if name == "test" else f"predictions-{name}.jsonl")
         atomic_write_text(out / names[-1], "\n".join(lines) + "\n")
@@ -236,7 +264,7 @@ def _write_predictions(out: Path, task: Task, results: dict[str, list[ArmResult]
 def run(cfg: CompareJob) -> dict:
     """Fine-tune and evaluate every arm × seed, run the paired tests, write the outputs."""
     task = read_task(cfg.task.dir, cfg.task.text_field, cfg.task.label_field, cfg.task.allow_missing_test_labels,
-                     dict(cfg.task.other_tests))
+                     dict(cfg.task.other_tests), cfg.task.label_delimiter)
     checkpoints = {arm: resolve_checkpoint(arm, cfg.arms[arm]) for arm in _ordered_arms(cfg)}
     # imports torch: only after the inputs were checked
     from adapt.common.runtime import apply_threads, resolve_device, resolve_precision
@@ -259,7 +287,8 @@ def run(cfg: CompareJob) -> dict:
         folder.finish(status="failed", precision=precision.record())
         raise
     doc = {"task": {"dir": str(task.dir), "labels": task.labels, "sizes": task.sizes,
-                    "files": [str(f) for f in task.files]},
+                    "files": [str(f) for f in task.files], "multi_label": task.multi_label,
+                    **({"threshold_rule": THRESHOLD_RULE} if task.multi_label else {})},
            "seeds": list(cfg.seeds), "confidence": conf, "reference_arm": cfg.reference_arm,
            "primary_metric": metric,
            "arms": {arm: _arm_record(checkpoints.get(arm, "tfidf+logistic-regression"), runs, conf)

@@ -15,6 +15,7 @@ Outputs (relative to the output folder):
                              cp1252 .txt) with planted defects and synthetic PII
     general/general.jsonl    general-domain text
     tasks/{legal,clinical}/{train,dev,test}.jsonl   labelled classification tasks
+    tasks/legal_multi/{train,dev,test}.jsonl        a multi-label task (a list of labels per letter)
     quality_gold.jsonl       good/poor documents for a quality classifier
     PLANTED.md, PLANTED.json what was planted where, for recall tests
 """
@@ -42,6 +43,7 @@ SAMPLES_DIR = HERE.parents[1] / "corpora_samples"
 import _clinical  # noqa: E402
 import _general  # noqa: E402
 import _legal  # noqa: E402
+import _legal_multi  # noqa: E402
 import _noise  # noqa: E402
 import _quality  # noqa: E402
 import _tasks  # noqa: E402
@@ -321,6 +323,14 @@ def planted_manifest(corpora: dict[str, list[Doc]], tasks: dict, quality_counts:
     return man
 
 
+def multi_label_manifest(splits: dict[str, list[dict]]) -> dict:
+    return {"sizes": {s: len(r) for s, r in splits.items()}, "multi_label": True,
+            "labels": sorted({lab for r in splits["train"] for lab in r["label"]}),
+            "labels_per_example": {s: dict(sorted(Counter(len(r["label"]) for r in rows).items()))
+                                   for s, rows in splits.items()},
+            "label_noise_examples": _legal_multi.NOISE_PER_SPLIT, "terms_train_only_first": SEEN}
+
+
 def _compact_json(obj: dict) -> str:
     """Indented JSON, but each innermost record on a single line."""
     text = json.dumps(obj, ensure_ascii=False, indent=1)
@@ -385,6 +395,12 @@ def planted_markdown(man: dict) -> str:
               + ", ".join(f"{s} {n}" for s, n in _tasks.NOISE_COUNTS.items()) + " examples per task.",
               f"The training splits only use the first {SEEN} characteristic terms of each class; dev and test use",
               "all of them (see `_terms.py`); every term also occurs in the matching unlabelled corpus.", "",
+              "`tasks/legal_multi` is multi-label: client letters raising one to three areas of law, the label a",
+              "list of areas; letters per number of areas: "
+              + "; ".join(f"{s} " + ", ".join(f"{k} area(s) {v}" for k, v in c.items())
+                          for s, c in man["tasks"]["legal_multi"]["labels_per_example"].items())
+              + ". Label noise: " + ", ".join(f"{s} {n}" for s, n in _legal_multi.NOISE_PER_SPLIT.items())
+              + " letters with one area dropped or added.", "",
               "## Quality gold", "",
               "Poor documents by kind: " + ", ".join(f"{k} {v}" for k, v in man["quality_gold"].items()) + ".", ""]
     return "\n".join(lines)
@@ -479,6 +495,8 @@ def main(argv: list[str] | None = None) -> int:
     general = build_general(random.Random(seeds["general"]))
     tasks = _tasks.make_tasks(random.Random(seeds["tasks"]))
     quality, qcounts = _quality.make_quality(random.Random(seeds["quality"]))
+    # its own stream, drawn after every other seed: adding it changed none of the other files
+    legal_multi = _legal_multi.make_legal_multi(random.Random(root.randrange(2**32)))
 
     for docs in corpora.values():
         write_corpus(out, docs)
@@ -486,9 +504,12 @@ def main(argv: list[str] | None = None) -> int:
     for name, splits in tasks.items():
         for split, rows in splits.items():
             write_rows(out, f"tasks/{name}/{split}.jsonl", rows)
+    for split, rows in legal_multi.items():
+        write_rows(out, f"tasks/legal_multi/{split}.jsonl", rows)
     write_rows(out, "quality_gold.jsonl", quality)
 
     man = planted_manifest(corpora, tasks, qcounts)
+    man["tasks"]["legal_multi"] = multi_label_manifest(legal_multi)
     (out / "PLANTED.json").write_bytes(_compact_json(man).encode("utf-8"))
     (out / "PLANTED.md").write_bytes(planted_markdown(man).encode("utf-8"))
 

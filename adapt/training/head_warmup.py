@@ -18,7 +18,7 @@ import torch.nn.functional as F
 from tqdm.auto import tqdm
 
 from adapt.common.seeding import step_seed
-from adapt.training.encoder import encoder_body, head_parameter_names, mlm_head
+from adapt.training.encoder import encoder_body, head_parameter_names, mlm_head, unwrap_peft
 from adapt.training.masking import IGNORE_INDEX
 from adapt.training.mlm_loss import MaskingPlan
 from adapt.training.packing import PackedSequences
@@ -120,16 +120,40 @@ def flat_twice(heldout_losses: list[float], min_improvement: float) -> bool:
     return a - b < min_improvement * a and b - c < min_improvement * b
 
 
+def output_bias(model: torch.nn.Module) -> torch.nn.Parameter | None:
+    """The bias of the vocabulary projection (BERT: cls.predictions.bias, shared with the decoder), if any."""
+    out = unwrap_peft(model).get_output_embeddings()
+    return getattr(out, "bias", None) if out is not None else None
+
+
+def bias_was_missing(model: torch.nn.Module, missing: list[str]) -> bool:
+    """Whether the output bias is among the checkpoint's missing weights (``HeadReport.missing``); the bias may
+    appear under either of its tied names (BERT: cls.predictions.bias and cls.predictions.decoder.bias)."""
+    bias = output_bias(model)
+    names = {n for n, p in unwrap_peft(model).named_parameters(remove_duplicate=False) if p is bias}
+    return bias is not None and bool(names & set(missing))
+
+
+def init_bias_from_labels(bias: torch.nn.Parameter, labels: torch.Tensor, smoothing: float = 0.5) -> None:
+    """Set the output bias to the log of the smoothed frequency of each token among the masked labels, so the
+    untrained head starts as the unigram model of the masked tokens instead of a uniform one over the vocabulary
+    (common practice for a softmax output layer: its bias at the log prior of the classes)."""
+    counts = torch.bincount(labels, minlength=bias.numel()).double() + smoothing
+    with torch.no_grad():
+        bias.copy_((counts / counts.sum()).log().to(bias.dtype))
+
+
 def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPlan, *, sample_seqs: int,
                  heldout_share: float, max_epochs: int, learning_rate: float, batch_size: int,
                  min_improvement: float, seed: int, device: torch.device, autocast, progress: bool,
-                 encode_batch_size: int = 16, should_stop: Callable[[], bool] = lambda: False
-                 ) -> WarmupResult | None:
+                 encode_batch_size: int = 16, should_stop: Callable[[], bool] = lambda: False,
+                 prior_bias: bool = False) -> WarmupResult | None:
     """Train the MLM head alone on cached encoder states; None if ``should_stop()`` ended the encoder pass.
 
     One window = one epoch over the training positions, ``batch_size`` positions an AdamW step; the held-out loss
     is measured before the first and after every window; stops once two windows in a row are flat
-    (``flat_twice``), or after ``max_epochs``. The head of the lowest held-out loss is kept.
+    (``flat_twice``), or after ``max_epochs``. The head of the lowest held-out loss is kept. ``prior_bias``
+    (for a missing output bias) starts the bias at the log frequency of the training positions' labels.
     """
     head = mlm_head(model)
     if head is None:
@@ -142,6 +166,9 @@ def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPla
         return None
     encoded = time.perf_counter()
     held, train = states.subset(states.rows < n_heldout), states.subset(states.rows >= n_heldout)
+    bias = output_bias(model) if prior_bias else None
+    if bias is not None:
+        init_bias_from_labels(bias, train.labels)
     names = set(head_parameter_names(model))
     params = dict(model.named_parameters())
     frozen = {n: p.requires_grad for n, p in params.items()}

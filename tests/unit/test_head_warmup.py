@@ -107,3 +107,33 @@ def test_same_seed_same_head_and_a_stop_signal_ends_it(setup, tmp_path):
         if name in head:
             assert torch.equal(param, head[name]), f"{name} differs between two runs with one seed"
     assert hw.warm_up_head(again, seqs, plan, **SETTINGS, should_stop=lambda: True) is None
+
+
+def test_prior_bias_is_the_log_frequency_of_the_masked_labels(setup):
+    from scipy.special import log_softmax
+
+    model, tokenizer, seqs, plan = setup
+    labels = torch.tensor([3, 3, 3, 7, 7, 11])
+    bias = hw.output_bias(model)
+    hw.init_bias_from_labels(bias, labels, smoothing=0.5)
+    counts = torch.bincount(labels, minlength=bias.numel()).double() + 0.5
+    # softmax of the bias alone is the smoothed unigram distribution of the labels (add-k smoothing, common
+    # practice); scipy's log_softmax is the reference normalisation
+    torch.testing.assert_close(torch.from_numpy(log_softmax(bias.detach().double().numpy())),
+                               (counts / counts.sum()).log(), atol=1e-5, rtol=0)
+    assert model.cls.predictions.decoder.bias is bias  # the tied name sees the same values
+
+
+def test_prior_bias_starts_lower_and_only_when_the_bias_was_missing(setup):
+    model, tokenizer, seqs, plan = setup
+    assert hw.bias_was_missing(model, ["cls.predictions.bias", "cls.predictions.transform.dense.weight"])
+    assert hw.bias_was_missing(model, ["cls.predictions.decoder.bias"])  # the tied name
+    assert not hw.bias_was_missing(model, ["cls.predictions.transform.dense.weight"])
+    start = {n: p.detach().clone() for n, p in model.named_parameters()}
+    plain = hw.warm_up_head(model, seqs, plan, **{**SETTINGS, "max_epochs": 1})
+    with torch.no_grad():
+        for n, p in model.named_parameters():
+            p.copy_(start[n])
+    prior = hw.warm_up_head(model, seqs, plan, **{**SETTINGS, "max_epochs": 1}, prior_bias=True)
+    # the same cached states and held-out positions: the unigram start is far below the uniform one, log(V)
+    assert prior.heldout_losses[0] < plain.heldout_losses[0] - 0.5

@@ -136,6 +136,7 @@ def test_both_prepare_passes_key_documents_with_document_key(tmp_path, monkeypat
 
     from adapt.config.prepare import PrepareJob, PrepareRuntimeConfig
     from adapt.corpus import docwork
+    from adapt.corpus.engine import LocalEngine
     from adapt.corpus.profile_builder import ProfileBuilder
     from adapt.corpus.readers import ReadStats
     from adapt.corpus.shards import Spill
@@ -154,7 +155,7 @@ def test_both_prepare_passes_key_documents_with_document_key(tmp_path, monkeypat
     cfg = PrepareJob(inputs=[str(tmp_path / "docs.jsonl")], runtime=PrepareRuntimeConfig(progress=False))
     cfg.clean.min_words = 1
     spill = Spill(tmp_path / "a.parquet", prepare.NORMALISED)
-    _, distinct = prepare._pass_a(cfg, spill, ProfileBuilder(cfg), ReadStats())
+    _, distinct = prepare._pass_a(cfg, LocalEngine(cfg), spill, ProfileBuilder(cfg), ReadStats())
     spill.close()
     docwork.init_worker(docwork.WorkState(cfg))
     rows = [{**r, "words": cleaning.count_words(r["text"])} for batch in spill.batches(10) for r in batch]

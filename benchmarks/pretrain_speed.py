@@ -130,7 +130,8 @@ class Ours:
     """The project's optimizer step (adapt.stages.pretrain._optimizer_step) on packed sequences."""
 
     def __init__(self, tokenizer, train: PackedSequences, schedule: ScheduleConfig, attn: str = "sdpa",
-                 compile_module: bool = False, attention_dropout: float | None = None):
+                 compile_module: bool = False, attention_dropout: float | None = None, bf16: bool = False):
+        self.bf16 = bf16  # bf16 autocast around the step, as the stage's Accelerator(mixed_precision="bf16") does
         self.cfg = PretrainJob(corpus_dir="-", seed=SEED, schedule=schedule)
         self.model, _ = load_mlm(self.cfg.encoder)
         if attn != self.model.config._attn_implementation:
@@ -155,7 +156,8 @@ class Ours:
         self.params = [p for p in self.counting.parameters() if p.requires_grad]
 
     def step(self) -> float:
-        loss, _ = _optimizer_step(self.cfg, self.t, self.data, self.plan, self.accelerator, self.params)
+        with torch.autocast("cpu", dtype=torch.bfloat16, enabled=self.bf16):
+            loss, _ = _optimizer_step(self.cfg, self.t, self.data, self.plan, self.accelerator, self.params)
         return loss
 
 
@@ -204,13 +206,14 @@ def alternate(loops: dict, steps: int) -> dict:
     return times
 
 
-def summary(times: list[float], tokens_per_step: int, flops: float, steps: int, peak: float) -> dict:
+def summary(times: list[float], tokens_per_step: int, flops: float, steps: int, peak: float,
+            peak_name: str = "fp32") -> dict:
     seconds = sum(times)
     timed_share = len(times) / steps  # FLOPs of the timed steps only
     return {"tokens_per_s": round(tokens_per_step * len(times) / seconds, 1),
             "median_step_s": round(float(np.median(times)), 3), "timed_steps": len(times),
             "model_tflop_per_step": round(flops / steps / 1e12, 4),
-            "mfu_fp32": round(flops * timed_share / seconds / (peak * 1e9), 3)}
+            f"mfu_{peak_name}": round(flops * timed_share / seconds / (peak * 1e9), 3)}
 
 
 def main() -> None:
@@ -241,6 +244,9 @@ def main() -> None:
     loops = {"ours": Ours(tokenizer, train, schedule),
              "ours_no_attention_dropout": Ours(tokenizer, train, schedule, attention_dropout=0.0),
              "plain": Plain(tokenizer, plain_chunks(tokenizer, train_texts), schedule)}
+    if out["machine"]["bf16_native"]:  # the >= 3x target where bf16 is native: our step in bf16 vs plain in fp32
+        loops["ours_bf16"] = Ours(tokenizer, train, schedule, bf16=True)
+        loops["ours_bf16_no_attention_dropout"] = Ours(tokenizer, train, schedule, attention_dropout=0.0, bf16=True)
     start_loss = heldout_loss(loops["plain"].model, evals)
     times = alternate(loops, args.steps)
     tokens_per_step = BATCH * SEQ
@@ -252,9 +258,9 @@ def main() -> None:
     for name, loop in loops.items():
         decoded = loop.decoded if name == "plain" else loop.counting.decoded
         out[name] = summary(times[name], tokens_per_step, model_flops(params, tokens, decoded), args.steps,
-                            peak["fp32_gflops"])
+                            *((peak["bf16_gflops"], "bf16") if "bf16" in name else (peak["fp32_gflops"], "fp32")))
         out["heldout"][f"loss_{name}"] = round(heldout_loss(loop.model, evals), 4)
-    for name in ("ours", "ours_no_attention_dropout"):
+    for name in [n for n in loops if n != "plain"]:
         out[f"speedup_{name}_over_plain"] = round(out[name]["tokens_per_s"] / out["plain"]["tokens_per_s"], 2)
     del loops
 
@@ -276,7 +282,7 @@ def main() -> None:
     out["matmul_peak"]["fp32_gflops_end"] = round(peak_end, 1)
     if peak_end > peak["fp32_gflops"]:
         scale = peak["fp32_gflops"] / peak_end
-        for name in ("ours", "ours_no_attention_dropout", "plain"):
+        for name in [n for n in ("ours", "ours_no_attention_dropout", "plain") if n in out]:
             out[name]["mfu_fp32"] = round(out[name]["mfu_fp32"] * scale, 3)
     print(json.dumps(out, indent=2))
 

@@ -86,15 +86,15 @@ def child(spec: dict) -> None:
 
     from adapt.config import compose_job
     from adapt.stages import pretrain
-    from adapt.training import token_cache
+    from adapt.training import run_data, token_cache
 
     transformers.logging.set_verbosity_error()
     built, timed = [], {}
     build = token_cache._build
     token_cache._build = lambda *a, **k: built.append(a[0].name) or build(*a, **k)
     if spec["mode"] == "before":
-        pretrain._load_split = _pack_before
-    load = pretrain._load_data
+        run_data._load_split = _pack_before
+    load = pretrain.load_run_data
 
     def timed_load(*a, **k):
         t0 = time.perf_counter()
@@ -102,7 +102,7 @@ def child(spec: dict) -> None:
         timed["data_load_s"] = time.perf_counter() - t0
         return data
 
-    pretrain._load_data = timed_load
+    pretrain.load_run_data = timed_load
     cfg = compose_job("pretrain", spec["overrides"])
     imported = time.perf_counter()
     result = pretrain.run(cfg)

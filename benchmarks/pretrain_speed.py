@@ -38,7 +38,8 @@ from transformers import DataCollatorForLanguageModeling, get_scheduler
 from adapt.common.runtime import cpu_bf16_support
 from adapt.config.common import EncoderConfig
 from adapt.config.pretrain import PretrainJob, ScheduleConfig
-from adapt.stages.pretrain import RunData, _optimizer_step
+from adapt.stages.pretrain import _optimizer_step
+from adapt.training.run_data import RunData
 from adapt.training.adapters import build_adapter, count_trainable
 from adapt.training.encoder import load_mlm, load_tokenizer
 from adapt.training.masking import IGNORE_INDEX
@@ -133,13 +134,10 @@ class Ours:
                  compile_module: bool = False, attention_dropout: float | None = None, bf16: bool = False):
         self.bf16 = bf16  # bf16 autocast around the step, as the stage's Accelerator(mixed_precision="bf16") does
         self.cfg = PretrainJob(corpus_dir="-", seed=SEED, schedule=schedule)
-        self.model, _ = load_mlm(self.cfg.encoder)
+        # attention_dropout: dropout on the attention probabilities (BERT: 0.1), as encoder.attention_dropout sets it
+        self.model, _ = load_mlm(self.cfg.encoder, attention_dropout=attention_dropout)
         if attn != self.model.config._attn_implementation:
             self.model.set_attn_implementation(attn)
-        if attention_dropout is not None:  # dropout on the attention probabilities (BERT: 0.1)
-            for name, module in self.model.named_modules():
-                if name.endswith("attention.self"):
-                    module.dropout.p = attention_dropout
         self.plan = MaskingPlan(tokenizer, 0.15, 0.8, 0.1)
         self.counting = CountingMlm(self.model)
         module = torch.compile(self.counting.inner) if compile_module else None

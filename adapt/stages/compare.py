@@ -219,10 +219,10 @@ def _cost(cfg: CompareJob, task: Task, checkpoints: dict[str, str], results: dic
     arms = []
     for arm, c in costs.items():
         primary = tests[f"{arm} vs {cfg.reference_arm}"]["primary"][metric]
+        per_hour = gain_per_hour(c, primary)
         arms.append({"arm": arm, **c, "metric": metric, "gain": primary["difference"], "gain_ci_low": primary["ci_low"],
-                     "gain_ci_high": primary["ci_high"],
-                     **{f"gain_per_hour{'' if k == 'difference' else '_' + k}": v
-                        for k, v in gain_per_hour(c, primary).items()}})
+                     "gain_ci_high": primary["ci_high"], "gain_per_hour": per_hour["difference"],
+                     "gain_per_hour_ci_low": per_hour["ci_low"], "gain_per_hour_ci_high": per_hour["ci_high"]})
     out: dict = {"arms": arms, "curves": []}
     test = _pair_test(cfg, task, metric)
     by_run: dict[str, list[str]] = {}
@@ -243,17 +243,17 @@ def _cost(cfg: CompareJob, task: Task, checkpoints: dict[str, str], results: dic
 
 def _write_predictions(out: Path, task: Task, results: dict[str, list[ArmResult]]) -> list[str]:
     """predictions.jsonl for test, predictions-<name>.jsonl for each further test set; returns the file names."""
+    def names_of(ids):  # noqa: ANN001, ANN202 - a label id, or a multi-label task's list of ids
+        return [task.labels[i] for i in ids] if task.multi_label else task.labels[ids]
+
     names = []
+    seeds = {arm: [r.seed for r in runs] for arm, runs in results.items()}
     for name, split in [("test", task.test), *task.other_tests.items()]:
         # texts are left out on purpose: task files may hold sensitive text; the index points back into the file
-        def names_of(ids):  # noqa: ANN001, ANN202 - a label id, or a multi-label task's list of ids
-            return [task.labels[i] for i in ids] if task.multi_label else task.labels[ids]
-
         lines = []
         for i, gold in enumerate(split.label_ids):
             pred = {arm: [names_of((r.test_predictions if name == "test" else r.other_predictions[name])[i])
                           for r in runs] for arm, runs in results.items()}
-            seeds = {arm: [r.seed for r in runs] for arm, runs in results.items()}
             lines.append(json.dumps({"index": i, "gold": names_of(gold), "predicted": pred, "seeds": seeds},
                                     ensure_ascii=False))
         names.append("predictions.jsonl" if name == "test" else f"predictions-{name}.jsonl")

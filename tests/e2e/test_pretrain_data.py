@@ -25,7 +25,7 @@ from tests.e2e.test_pretrain import _restore_threads, tiny_cfg  # noqa: F401 (an
 KNOWN = "the court tenant landlord notice contract clause appeal rent months of and to a in".split()
 UNKNOWN = "quartz lease ledger notary verdict bailiff escrow".split()
 GENERAL = "river garden window kitchen music morning bicycle library".split()
-REPLAY_SALT = 0x4E91A  # the replay cursor's salt in adapt.stages.pretrain._cursors
+REPLAY_SALT = 0x4E91A  # the replay cursor's salt in adapt.training.run_data.batch_cursors
 
 
 def write_scored(folder: Path, words: list[str], n_train: int, seed: int) -> Path:

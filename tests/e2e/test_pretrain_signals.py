@@ -23,7 +23,7 @@ from tests.e2e.test_pretrain import _restore_threads, tiny_cfg  # noqa: F401 (an
 
 # phase -> (function of adapt.stages.pretrain that signals when entered, on which call)
 PHASES = {
-    "tokenise": ("_load_data", 1),
+    "tokenise": ("load_run_data", 1),
     "warm_up": ("warm_up_head", 1),
     "base": ("_measure_base", 1),
     "train": ("_optimizer_step", 3),

@@ -13,6 +13,7 @@ import contextlib
 import functools
 import logging
 import math
+import os
 import platform
 import time
 from dataclasses import dataclass
@@ -122,15 +123,23 @@ def _torch_cpu_bf16_units() -> set[str]:
     return found
 
 
+# oneDNN's ONEDNN_MAX_CPU_ISA values (its documentation, "CPU dispatcher control") that stop below the bf16 units
+_ONEDNN_NO_BF16 = ("SSE41", "AVX", "AVX2", "AVX2_VNNI", "AVX2_VNNI_2", "AVX512_CORE", "AVX512_CORE_VNNI")
+
+
 def cpu_bf16_support() -> Bf16Support:
-    """Native bf16 on this CPU: avx512_bf16 or AMX (torch's check or /proc/cpuinfo); an x86 CPU whose torch
-    kernels stop below AVX512 certainly emulates bf16; anything else (AVX512 alone, ARM) is left to a probe."""
+    """Native bf16 on this CPU: avx512_bf16 or AMX (torch's check or /proc/cpuinfo), unless torch's kernels are
+    held below them (an x86 capability under AVX512, e.g. ATEN_CPU_CAPABILITY=avx2, or ONEDNN_MAX_CPU_ISA), where
+    bf16 is certainly emulated; anything else (AVX512 alone, ARM) is left to a probe."""
     capability = torch.backends.cpu.get_cpu_capability()
+    isa_cap = os.environ.get("ONEDNN_MAX_CPU_ISA", "").strip().upper()
+    if platform.machine().lower() in _X86 and not capability.upper().startswith("AVX512"):
+        return Bf16Support(False, f"CPU {capability} has no native bf16")
+    if isa_cap in _ONEDNN_NO_BF16:
+        return Bf16Support(False, f"CPU {capability} held to ONEDNN_MAX_CPU_ISA={isa_cap}: bf16 is emulated")
     units = _torch_cpu_bf16_units() | (_cpuinfo_flags() & set(_CPU_BF16_FLAGS))
     if units:
         return Bf16Support(True, f"CPU {capability} with {', '.join(sorted(units))}")
-    if platform.machine().lower() in _X86 and not capability.upper().startswith("AVX512"):
-        return Bf16Support(False, f"CPU {capability} has no native bf16")
     return Bf16Support(None, f"CPU {capability} without avx512_bf16/AMX flags")
 
 

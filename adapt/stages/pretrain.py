@@ -39,7 +39,7 @@ from adapt.training.encoder import attention_dropout_values, head_parameter_name
 from adapt.training.early_stop import LOSS_KEY, judge, patience_spent
 from adapt.training.export import CI_HIGH, CI_LOW, export_checkpoint, export_saved, measure_pppl
 from adapt.training.model_card import write_model_card
-from adapt.training.head_warmup import bias_was_missing, warm_up_head
+from adapt.training.head_warmup import warm_up_head
 from adapt.training.mlm_loss import MaskedOnlyMlm, MaskingPlan
 from adapt.training.optimizer import build_adamw
 from adapt.training.packing import replay_rows
@@ -108,7 +108,7 @@ def _warm_up_head(s: Session, model, head_report, data: RunData, plan: MaskingPl
             min_improvement=warm.min_improvement, seed=cfg.seed, device=accelerator.device,
             autocast=accelerator.autocast, progress=cfg.runtime.progress,
             encode_batch_size=cfg.schedule.batch_size, should_stop=lambda: s.stop.requested,
-            prior_bias=bias_was_missing(model, head_report.missing))
+            missing=head_report.missing)
         if result is None or result.stopped or s.stop.requested:  # a restart warms up again from the start
             return
         losses = result.heldout_losses

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass
-from typing import Callable
+from typing import Callable, Sequence
 
 import torch
 import torch.nn.functional as F
@@ -126,12 +126,30 @@ def output_bias(model: torch.nn.Module) -> torch.nn.Parameter | None:
     return getattr(out, "bias", None) if out is not None else None
 
 
-def bias_was_missing(model: torch.nn.Module, missing: list[str]) -> bool:
-    """Whether the output bias is among the checkpoint's missing weights (``HeadReport.missing``); the bias may
-    appear under either of its tied names (BERT: cls.predictions.bias and cls.predictions.decoder.bias)."""
-    bias = output_bias(model)
-    names = {n for n, p in unwrap_peft(model).named_parameters(remove_duplicate=False) if p is bias}
-    return bias is not None and bool(names & set(missing))
+def square_transform(model: torch.nn.Module) -> torch.nn.Linear | None:
+    """The head's hidden-to-hidden projection before the vocabulary one (BERT: cls.predictions.transform.dense,
+    RoBERTa-like: lm_head.dense), if it has one."""
+    head, out = mlm_head(model), unwrap_peft(model).get_output_embeddings()
+    for module in head.modules() if head is not None else ():
+        if isinstance(module, torch.nn.Linear) and module is not out and module.in_features == module.out_features:
+            return module
+    return None
+
+
+def _was_missing(model: torch.nn.Module, param: torch.nn.Parameter | None, missing: Sequence[str]) -> bool:
+    """Whether ``param`` is among the checkpoint's missing weights (``HeadReport.missing``) under any of its
+    names (a tied weight has several: BERT's cls.predictions.bias and cls.predictions.decoder.bias)."""
+    names = {n for n, p in unwrap_peft(model).named_parameters(remove_duplicate=False) if p is param}
+    return param is not None and bool(names & set(missing))
+
+
+def bias_was_missing(model: torch.nn.Module, missing: Sequence[str]) -> bool:
+    return _was_missing(model, output_bias(model), missing)
+
+
+def transform_was_missing(model: torch.nn.Module, missing: Sequence[str]) -> bool:
+    dense = square_transform(model)
+    return dense is not None and _was_missing(model, dense.weight, missing)
 
 
 def init_bias_from_labels(bias: torch.nn.Parameter, labels: torch.Tensor, smoothing: float = 0.5) -> None:
@@ -143,17 +161,36 @@ def init_bias_from_labels(bias: torch.nn.Parameter, labels: torch.Tensor, smooth
         bias.copy_((counts / counts.sum()).log().to(bias.dtype))
 
 
+# Root mean square of the transform's pre-activations at the identity start. Measured on the packaged encoder
+# (benchmarks/head_warmup.py, held-out loss after 3 epochs): identity scales of 1, 4, 8 and 16 (rms 0.4, 1.5,
+# 3.1 and 6.1) gave 6.149, 6.120, 6.092 and 6.115; the random start 6.227.
+IDENTITY_RMS = 3.0
+
+
+def init_transform_as_identity(dense: torch.nn.Linear, hidden: torch.Tensor) -> None:
+    """Start a missing hidden-to-hidden projection at a scaled identity (bias 0), so that the untrained head
+    scores each token by the dot product of the final hidden state with its tied embedding, as the encoder's own
+    input embeddings do (the "logit lens": output embeddings applied to hidden states directly), instead of by a
+    random projection. The scale brings the pre-activations of ``hidden`` (the cached states) to IDENTITY_RMS."""
+    rms = float(hidden.float().pow(2).mean().sqrt())
+    with torch.no_grad():
+        dense.weight.copy_(torch.eye(dense.in_features, dtype=dense.weight.dtype) * (IDENTITY_RMS / max(rms, 1e-6)))
+        if dense.bias is not None:
+            dense.bias.zero_()
+
+
 def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPlan, *, sample_seqs: int,
                  heldout_share: float, max_epochs: int, learning_rate: float, batch_size: int,
                  min_improvement: float, seed: int, device: torch.device, autocast, progress: bool,
                  encode_batch_size: int = 16, should_stop: Callable[[], bool] = lambda: False,
-                 prior_bias: bool = False) -> WarmupResult | None:
+                 missing: Sequence[str] = ()) -> WarmupResult | None:
     """Train the MLM head alone on cached encoder states; None if ``should_stop()`` ended the encoder pass.
 
     One window = one epoch over the training positions, ``batch_size`` positions an AdamW step; the held-out loss
     is measured before the first and after every window; stops once two windows in a row are flat
-    (``flat_twice``), or after ``max_epochs``. The head of the lowest held-out loss is kept. ``prior_bias``
-    (for a missing output bias) starts the bias at the log frequency of the training positions' labels.
+    (``flat_twice``), or after ``max_epochs``. The head of the lowest held-out loss is kept. Weights named in
+    ``missing`` (the checkpoint lacked them) get a start better than random: the output bias at the log frequency
+    of the training positions' labels, the hidden-to-hidden projection at a scaled identity.
     """
     head = mlm_head(model)
     if head is None:
@@ -166,9 +203,10 @@ def warm_up_head(model: torch.nn.Module, seqs: PackedSequences, plan: MaskingPla
         return None
     encoded = time.perf_counter()
     held, train = states.subset(states.rows < n_heldout), states.subset(states.rows >= n_heldout)
-    bias = output_bias(model) if prior_bias else None
-    if bias is not None:
-        init_bias_from_labels(bias, train.labels)
+    if bias_was_missing(model, missing):
+        init_bias_from_labels(output_bias(model), train.labels)
+    if transform_was_missing(model, missing):
+        init_transform_as_identity(square_transform(model), train.hidden)
     names = set(head_parameter_names(model))
     params = dict(model.named_parameters())
     frozen = {n: p.requires_grad for n, p in params.items()}

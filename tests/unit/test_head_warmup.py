@@ -134,6 +134,50 @@ def test_prior_bias_starts_lower_and_only_when_the_bias_was_missing(setup):
     with torch.no_grad():
         for n, p in model.named_parameters():
             p.copy_(start[n])
-    prior = hw.warm_up_head(model, seqs, plan, **{**SETTINGS, "max_epochs": 1}, prior_bias=True)
+    prior = hw.warm_up_head(model, seqs, plan, **{**SETTINGS, "max_epochs": 1}, missing=["cls.predictions.bias"])
     # the same cached states and held-out positions: the unigram start is far below the uniform one, log(V)
     assert prior.heldout_losses[0] < plain.heldout_losses[0] - 0.5
+
+
+def test_identity_start_of_a_missing_transform_is_the_logit_lens(setup):
+    model, tokenizer, seqs, plan = setup
+    dense = model.cls.predictions.transform.dense
+    assert hw.square_transform(model) is dense
+    assert hw.transform_was_missing(model, ["cls.predictions.transform.dense.weight"])
+    assert not hw.transform_was_missing(model, ["cls.predictions.bias", "cls.predictions.decoder.bias"])
+    hidden = torch.randn(50, dense.in_features) * 0.4
+    hw.init_transform_as_identity(dense, hidden)
+    # a scaled identity with no bias: pre-activations are the states times one factor, at IDENTITY_RMS
+    factor = float(dense.weight[0, 0])
+    torch.testing.assert_close(dense.weight, torch.eye(dense.in_features) * factor)
+    assert float(dense.bias.abs().max()) == 0.0
+    assert float(dense(hidden).pow(2).mean().sqrt()) == pytest.approx(hw.IDENTITY_RMS, rel=1e-5)
+    # the head then scores tokens by LayerNorm(GELU(factor * h)) . embedding + bias, written out by hand from
+    # BERT's prediction head (Devlin et al. 2019, appendix A.2: dense + GELU + layer norm, decoder tied to the
+    # input embeddings)
+    ln = model.cls.predictions.transform.LayerNorm
+    z = F.gelu(factor * hidden)
+    z = (z - z.mean(-1, keepdim=True)) / torch.sqrt(z.var(-1, unbiased=False, keepdim=True) + ln.eps)
+    by_hand = (z * ln.weight + ln.bias) @ model.get_input_embeddings().weight.T + hw.output_bias(model)
+    with torch.no_grad():
+        torch.testing.assert_close(hw.mlm_head(model)(hidden), by_hand, atol=1e-4, rtol=1e-4)
+
+
+def test_warm_up_applies_the_identity_start_only_to_a_missing_transform(setup):
+    model, tokenizer, seqs, plan = setup
+    dense = model.cls.predictions.transform.dense
+    kept = dense.weight.detach().clone()
+    hw.warm_up_head(model, seqs, plan, **{**SETTINGS, "max_epochs": 0})  # no epochs: only the start is applied
+    assert torch.equal(dense.weight, kept)  # present in the checkpoint: left as it was
+    hw.warm_up_head(model, seqs, plan, **{**SETTINGS, "max_epochs": 0},
+                    missing=["cls.predictions.transform.dense.weight"])
+    assert torch.count_nonzero(dense.weight - torch.diag(torch.diagonal(dense.weight))) == 0
+
+
+def test_square_transform_of_a_roberta_like_head(tmp_path):
+    from transformers import RobertaConfig, RobertaForMaskedLM
+
+    model = RobertaForMaskedLM(RobertaConfig(vocab_size=99, hidden_size=16, num_hidden_layers=1,
+                                             num_attention_heads=2, intermediate_size=32))
+    assert hw.square_transform(model) is model.lm_head.dense
+    assert hw.transform_was_missing(model, ["lm_head.dense.weight"])

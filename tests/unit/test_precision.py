@@ -129,11 +129,17 @@ def test_cpu_capability_from_flags(monkeypatch):
     monkeypatch.setattr(runtime, "_cpuinfo_flags", lambda: {"avx2", "fma"})
     assert cpu_bf16_support().native is False
     monkeypatch.setattr(runtime, "_cpuinfo_flags", lambda: {"avx2", "amx_bf16"})
-    assert cpu_bf16_support().native is True
+    # AMX in the CPU, but torch's kernels held to AVX2 (ATEN_CPU_CAPABILITY=avx2): bf16 is emulated
+    assert cpu_bf16_support().native is False
     monkeypatch.setattr(runtime, "_cpuinfo_flags", lambda: {"avx512f", "avx512bw"})
     monkeypatch.setattr(torch.backends.cpu, "get_cpu_capability", lambda: "AVX512")
     assert cpu_bf16_support().native is None  # AVX512 alone: the probe decides
     monkeypatch.setattr(runtime, "_torch_cpu_bf16_units", lambda: {"avx512_bf16"})
+    assert cpu_bf16_support().native is True
+    # oneDNN's ISA cap (its documented ONEDNN_MAX_CPU_ISA values) decides which matmul kernels run
+    monkeypatch.setenv("ONEDNN_MAX_CPU_ISA", "AVX2")
+    assert cpu_bf16_support().native is False
+    monkeypatch.setenv("ONEDNN_MAX_CPU_ISA", "AVX512_CORE_AMX")
     assert cpu_bf16_support().native is True
 
 

@@ -148,7 +148,7 @@ def test_identity_start_of_a_missing_transform_is_the_logit_lens(setup):
     hidden = torch.randn(50, dense.in_features) * 0.4
     hw.init_transform_as_identity(dense, hidden)
     # a scaled identity with no bias: pre-activations are the states times one factor, at IDENTITY_RMS
-    factor = float(dense.weight[0, 0])
+    factor = float(dense.weight.detach()[0, 0])
     torch.testing.assert_close(dense.weight, torch.eye(dense.in_features) * factor)
     assert float(dense.bias.abs().max()) == 0.0
     assert float(dense(hidden).pow(2).mean().sqrt()) == pytest.approx(hw.IDENTITY_RMS, rel=1e-5)

@@ -106,10 +106,7 @@ def main() -> None:
     for informed in {"informed": [True], "random": [False], "both": [False, True]}[args.start]:
         model, report = load_mlm(EncoderConfig())
         start = time.perf_counter()
-        warm = warm_up_head(model, train, plan, sample_seqs=h.sample_seqs, heldout_share=h.heldout_share,
-                            max_epochs=h.max_epochs, learning_rate=h.learning_rate, batch_size=h.batch_size,
-                            min_improvement=h.min_improvement, seed=SEED, device=cpu, autocast=no_autocast,
-                            progress=False, missing=report.missing if informed else ())
+        warm = _cached_fit(model, report, train, plan, h, informed, h.max_epochs, h.min_improvement)
         key = "cached_informed_start" if informed else "cached_random_start"
         results[key] = {"seconds": time.perf_counter() - start, "encode_seconds": warm.encode_seconds,
                         "fit_seconds": warm.fit_seconds, "epochs": len(warm.train_losses), "steps": warm.steps,
@@ -128,6 +125,16 @@ def main() -> None:
     print(json.dumps(_rounded(results), indent=2))
 
 
+def _cached_fit(model, report, train, plan, h, informed: bool, max_epochs: int, min_improvement: float):
+    """warm_up_head with the HeadWarmupConfig ``h``; ``informed``: the checkpoint's missing weights get their
+    informed start (what the stage does), else they stay at their random init."""
+    return warm_up_head(model, train, plan, sample_seqs=h.sample_seqs, heldout_share=h.heldout_share,
+                        max_epochs=max_epochs, learning_rate=h.learning_rate, batch_size=h.batch_size,
+                        min_improvement=min_improvement, seed=SEED, device=torch.device("cpu"),
+                        autocast=contextlib.nullcontext, progress=False,
+                        missing=report.missing if informed else ())
+
+
 def _time_to_pass(target: float, train, plan, fixed, h, informed: bool, most_epochs: int) -> dict:
     """The shortest warm-up (1, 2, ... epochs, no early stop; each a fresh run from the loaded head, encoder pass
     included) whose head scores below ``target`` on the fixed held-out sequences, and its seconds."""
@@ -135,10 +142,7 @@ def _time_to_pass(target: float, train, plan, fixed, h, informed: bool, most_epo
     for epochs in range(1, most_epochs + 1):
         model, report = load_mlm(EncoderConfig())
         start = time.perf_counter()
-        warm_up_head(model, train, plan, sample_seqs=h.sample_seqs, heldout_share=h.heldout_share,
-                     max_epochs=epochs, learning_rate=h.learning_rate, batch_size=h.batch_size, min_improvement=0,
-                     seed=SEED, device=cpu, autocast=no_autocast, progress=False,
-                     missing=report.missing if informed else ())
+        _cached_fit(model, report, train, plan, h, informed, epochs, 0)
         seconds = time.perf_counter() - start
         loss = fixed.loss(MaskedOnlyMlm(model), cpu, no_autocast)
         if loss < target:

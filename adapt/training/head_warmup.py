@@ -149,7 +149,7 @@ def bias_was_missing(model: torch.nn.Module, missing: Sequence[str]) -> bool:
 
 def transform_was_missing(model: torch.nn.Module, missing: Sequence[str]) -> bool:
     dense = square_transform(model)
-    return dense is not None and _was_missing(model, dense.weight, missing)
+    return _was_missing(model, dense.weight if dense is not None else None, missing)
 
 
 def init_bias_from_labels(bias: torch.nn.Parameter, labels: torch.Tensor, smoothing: float = 0.5) -> None:

@@ -376,7 +376,7 @@ def planted_markdown(man: dict) -> str:
               "Invented identifiers inserted as extra lines (1-3 per document) in documents that carry no other defect.",
               "", "| kind | legal | clinical | format |", "| --- | ---: | ---: | --- |"]
     fmt = {"email": "address at a `.example` or `.test` domain",
-           "phone": "`01632 960xxx`, `07700 900xxx` or `+34 6xx xxx xxx`",
+           "phone": "`01632 960 xxx`, `07700 900xxx` or `+34 6xx xxx xxx`",
            "dni": "8 digits + valid mod-23 check letter",
            "iban": "Spanish IBAN (ES), valid national and ISO 13616 mod-97 check digits, some spaced",
            "card": "16 digits starting 4000, valid Luhn check digit, some spaced",

@@ -25,7 +25,7 @@ from accelerate.utils import broadcast_object_list
 from tqdm.auto import tqdm
 from transformers import get_scheduler
 
-from adapt.common.errors import ConfigError, InputError
+from adapt.common.errors import ConfigError
 from adapt.common.io import atomic_write_json
 from adapt.common.runtime import PrecisionChoice, announce_precision, apply_threads, resolve_device, resolve_precision
 from adapt.common.seeding import step_seed
@@ -35,15 +35,16 @@ from adapt.contracts.manifest import RunFolder
 from adapt.contracts.checkpoint import best_checkpoint, read_state
 from adapt.contracts.run_folder import BASE, BEST, CHECKPOINTS, FINAL, METRICS, MetricsLog, ensure_writable
 from adapt.training.adapters import Adapter, build_adapter, count_trainable
-from adapt.training.encoder import attention_dropout_values, head_parameter_names, load_mlm, load_tokenizer
+from adapt.training.encoder import attention_dropout_values, load_mlm, load_tokenizer
 from adapt.training.early_stop import LOSS_KEY, judge, patience_spent
+from adapt.training.base_model import (format_figures, measure_base, run_precision, start_figures,
+                                       warm_up_missing_head, warmup_record)
 from adapt.training.export import CI_HIGH, CI_LOW, export_checkpoint, export_saved, measure_pppl
 from adapt.training.model_card import write_model_card
-from adapt.training.head_warmup import warm_up_head
 from adapt.training.mlm_loss import MaskedOnlyMlm, MaskingPlan
 from adapt.training.optimizer import build_adamw
 from adapt.training.packing import replay_rows
-from adapt.training.ranks import broadcast_parameters, on_main
+from adapt.training.ranks import on_main
 from adapt.training.run_data import RunData, batch_cursors, load_run_data
 from adapt.training.resume import (Session, Training, open_run, restore_training, save_training, stop_reason,
                                    stopped_result)
@@ -84,65 +85,6 @@ def _accelerator(cfg: PretrainJob) -> tuple[Accelerator, PrecisionChoice]:
     accelerator = Accelerator(cpu=cpu, mixed_precision="bf16" if precision.precision == "bf16" else "no")
     _refuse_fsdp(accelerator)
     return accelerator, precision
-
-
-def _precision(accelerator: Accelerator) -> str:
-    """The resolved precision the run's Accelerator autocasts in, for the pseudo-perplexity passes."""
-    return "bf16" if accelerator.mixed_precision == "bf16" else "fp32"
-
-
-def _warm_up_head(s: Session, model, head_report, data: RunData, plan: MaskingPlan) -> None:
-    """Main process trains the head alone; every process then takes its weights (computed once, broadcast)."""
-    cfg, accelerator = s.cfg, s.accelerator
-    warm = cfg.head_warmup
-    if not (warm.when == "always" or (warm.when == "auto" and head_report.needs_warmup)):
-        return
-
-    def warm_up() -> None:
-        if len(data.train) < 2:
-            raise InputError(f"corpus_dir={cfg.corpus_dir}: {len(data.train)} training sequence, but the head "
-                             "warm-up holds one out; add text or set head_warmup.when=never")
-        result = warm_up_head(
-            model, data.train, plan, sample_seqs=warm.sample_seqs, heldout_share=warm.heldout_share,
-            max_epochs=warm.max_epochs, learning_rate=warm.learning_rate, batch_size=warm.batch_size,
-            min_improvement=warm.min_improvement, seed=cfg.seed, device=accelerator.device,
-            autocast=accelerator.autocast, progress=cfg.runtime.progress,
-            encode_batch_size=cfg.schedule.batch_size, should_stop=lambda: s.stop.requested,
-            missing=head_report.missing)
-        if result is None or result.stopped or s.stop.requested:  # a restart warms up again from the start
-            return
-        losses = result.heldout_losses
-        s.metrics.write(phase="head_warmup", steps=result.steps, epochs=len(result.train_losses),
-                        first_loss=losses[0], last_loss=result.best_loss, converged=result.converged,
-                        heldout_losses=losses, train_losses=result.train_losses,
-                        cached_positions=result.num_train, heldout_positions=result.num_heldout,
-                        seconds=result.encode_seconds + result.fit_seconds, encode_seconds=result.encode_seconds)
-        if not result.converged and warm.min_improvement > 0:
-            log.warning("the MLM head's held-out loss was still falling after head_warmup.max_epochs=%d (%.3f -> "
-                        "%.3f): base figures may be too pessimistic; raise head_warmup.max_epochs",
-                        warm.max_epochs, losses[0], result.best_loss)
-
-    on_main(accelerator, warm_up)
-    head = set(head_parameter_names(model))
-    broadcast_parameters(accelerator, [p for n, p in model.named_parameters() if n in head])
-
-
-def _measure_base(s: Session, model, tokenizer, data: RunData) -> dict:
-    """The fair "base": the original encoder with the warmed head, nothing else changed; saved as base/.
-    Main process only; returns the size and sha256 of base/'s weights."""
-    accelerator = s.accelerator
-
-    def measure() -> dict:
-        digest = export_checkpoint(model, tokenizer, s.out / BASE)
-        loss_module = MaskedOnlyMlm(model)
-        start = {f"heldout_loss_{k}": e.loss(loss_module, accelerator.device, accelerator.autocast)
-                 for k, e in data.evals.items()}
-        start.update(measure_pppl(model, tokenizer, data.pppl_texts, s.cfg, _precision(accelerator)))
-        s.metrics.write(phase="start", step=0, **start)
-        log.info("base model: %s", _fmt(start))
-        return digest
-
-    return on_main(accelerator, measure)
 
 
 def _set_up_training(s: Session, adapter: Adapter, model, data: RunData, resume_from: str | None,
@@ -242,7 +184,7 @@ def _train(s: Session, t: Training, data: RunData, plan: MaskingPlan, tokenizer)
         improved = early = False
         if _evaluates(cfg, t.step):
             record.update(_heldout(s, t, data))
-            log.info("step %d: %s", t.step, _fmt(record))
+            log.info("step %d: %s", t.step, format_figures(record))
             improved, early = _judge(cfg, t, record[LOSS_KEY])
         if s.main:
             s.metrics.write(**record)
@@ -304,7 +246,7 @@ def _finish(s: Session, t: Training, data: RunData, tokenizer, head_report) -> d
     end = _heldout(s, t, data)
     final_model = t.adapter.export(module.model)
     end.update(on_main(accelerator, lambda: measure_pppl(final_model, tokenizer, data.pppl_texts, cfg,
-                                                         _precision(accelerator))))
+                                                         run_precision(accelerator))))
     if s.stop_agreed():
         t.stopped_by = stop_reason(s)
         return None
@@ -315,7 +257,7 @@ def _finish(s: Session, t: Training, data: RunData, tokenizer, head_report) -> d
               "effective_batch_size": sched.batch_size * sched.grad_accum_steps * accelerator.num_processes,
               "precision": s.precision.precision, "attention_dropout": attention_dropout_values(final_model),
               "head_missing": head_report.missing,
-              "head_warmup": _warmup_record(s.metrics), "start": _start_figures(s.metrics), "end": end,
+              "head_warmup": warmup_record(s.metrics), "start": start_figures(s.metrics), "end": end,
               "best": on_main(accelerator, lambda: _best_figures(s, t))}
 
     def write() -> None:  # a signal from here on lets the export finish: the run is then complete
@@ -361,10 +303,10 @@ def _run(s: Session) -> dict:
     if resume_from is None:  # a resumed run warmed up and measured its base when it started
         if s.stop_agreed():  # safe point: after tokenising (nothing to save yet)
             return stopped_result(s, run_folder, None, stop_reason(s))
-        _warm_up_head(s, model, head_report, data, plan)
+        warm_up_missing_head(s, model, head_report, data, plan)
         if s.stop_agreed():  # safe point: after the warm-up (a restart warms up again)
             return stopped_result(s, run_folder, None, stop_reason(s))
-        base_weights = _measure_base(s, model, tokenizer, data)
+        base_weights = measure_base(s, model, tokenizer, data)
     t = _set_up_training(s, adapter, model, data, resume_from, fingerprint, base_weights)
     if resume_from is None:
         save_training(s, t, tokenizer)  # step 0: a restart never repeats the warm-up and the base measurement
@@ -378,23 +320,6 @@ def _run(s: Session) -> dict:
         run_folder.finish("completed", step=t.step, precision=s.precision.record())
     result["summary"] = _summary(result)
     return result
-
-
-def _warmup_record(metrics: MetricsLog) -> dict | None:
-    """Steps, epochs, held-out loss before and after, whether the head warm-up converged, its seconds (None: no
-    warm-up ran)."""
-    warm = [r for r in metrics.read() if r.get("phase") == "head_warmup"]
-    keys = ("steps", "epochs", "first_loss", "last_loss", "converged", "seconds")
-    return {k: warm[-1].get(k) for k in keys} if warm else None
-
-
-def _start_figures(metrics: MetricsLog) -> dict:
-    starts = [r for r in metrics.read() if r.get("phase") == "start"]
-    return {k: v for k, v in starts[-1].items() if k.startswith(("heldout_", "pppl_"))} if starts else {}
-
-
-def _fmt(record: dict) -> str:
-    return ", ".join(f"{k}={v:.4g}" for k, v in record.items() if isinstance(v, float))
 
 
 def _summary(result: dict) -> list[str]:

@@ -7,7 +7,7 @@ Both start from the same freshly loaded head, train on the same sequences and ar
 same held-out masked sequences (a fixed seeded mask). Texts: the invented legal samples (corpora_samples/legal),
 packed into 128-token sequences. ``to_pass_old``: the fewest epochs (a fresh run each, encoder pass included)
 after which the cached fit scores below the old loop. Prints JSON.
-Usage: python benchmarks/head_warmup.py [--old-steps 200] [--start informed|random|both]
+Usage: python benchmarks/head_warmup.py [--old-steps 200] [--start informed|random|both] [--sample-seqs N ...]
 """
 
 from __future__ import annotations
@@ -80,7 +80,8 @@ def main() -> None:
                         help="informed: the missing output bias at the log label frequency and the missing "
                              "transform at a scaled identity (what pretrain does); random: both left at their "
                              "random init")
-    parser.add_argument("--sample-seqs", type=int, default=None, help="override HeadWarmupConfig.sample_seqs")
+    parser.add_argument("--sample-seqs", type=int, nargs="+", default=None,
+                        help="HeadWarmupConfig.sample_seqs values to fit in turn (default: the config's)")
     args = parser.parse_args()
     transformers.logging.set_verbosity_error()
     cpu = torch.device("cpu")
@@ -100,14 +101,15 @@ def main() -> None:
         old_warm_up(model, train, plan, args.old_steps, 1e-2, 16)
         results["old"] = {"steps": args.old_steps, "batch_size": 16, "seconds": time.perf_counter() - start,
                           "heldout_loss": fixed.loss(MaskedOnlyMlm(model), cpu, no_autocast)}
-    h = HeadWarmupConfig()
-    if args.sample_seqs:
-        h.sample_seqs = args.sample_seqs
-    for informed in {"informed": [True], "random": [False], "both": [False, True]}[args.start]:
+    sizes = args.sample_seqs or [HeadWarmupConfig().sample_seqs]
+    starts = {"informed": [True], "random": [False], "both": [False, True]}[args.start]
+    for sample_seqs, informed in [(n, i) for n in sizes for i in starts]:
+        h = HeadWarmupConfig(sample_seqs=sample_seqs)
         model, report = load_mlm(EncoderConfig())
         start = time.perf_counter()
         warm = _cached_fit(model, report, train, plan, h, informed, h.max_epochs, h.min_improvement)
-        key = "cached_informed_start" if informed else "cached_random_start"
+        key = ("cached_informed_start" if informed else "cached_random_start") + (
+            f"_{sample_seqs}_seqs" if len(sizes) > 1 else "")
         results[key] = {"seconds": time.perf_counter() - start, "encode_seconds": warm.encode_seconds,
                         "fit_seconds": warm.fit_seconds, "epochs": len(warm.train_losses), "steps": warm.steps,
                         "converged": warm.converged, "cached_train_positions": warm.num_train,

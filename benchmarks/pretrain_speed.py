@@ -12,7 +12,10 @@ plain: fixed-length chunks of 128 tokens, transformers' DataCollatorForLanguageM
        model(**batch) computing vocabulary logits at every position, torch.optim.AdamW with its defaults.
 
 Also measured: the fp32 matmul peak (best of a few large square products; bf16 only where the CPU computes bf16
-natively), each loop's model-FLOPs utilisation, the held-out MLM loss of both on the same fixed masked sequences,
+natively), each loop's model-FLOPs utilisation, the held-out MLM loss of both on the same fixed masked sequences
+(and each loop's difference from plain with a 95% paired bootstrap interval over those sequences; ``ours_seed1``
+and ``plain_seed1``, the same loops with another seed for masks, batch order and dropout, show how far apart
+training noise alone puts two runs of one loop),
 and two variants of our step: ``ours_no_attention_dropout`` (the same step with the attention-probability
 dropout at 0, which lets SDPA use its fused kernel on CPU; trained and scored like the others) and, speed only,
 eager attention instead of SDPA and (--compile) torch.compile of the loss module.
@@ -22,7 +25,6 @@ Prints JSON. Usage: python benchmarks/pretrain_speed.py [--steps 20] [--variant-
 from __future__ import annotations
 
 import argparse
-import contextlib
 import json
 import os
 import subprocess
@@ -31,6 +33,7 @@ from pathlib import Path
 
 import numpy as np
 import torch
+import torch.nn.functional as F
 import transformers
 from accelerate import Accelerator
 from transformers import DataCollatorForLanguageModeling, get_scheduler
@@ -131,9 +134,10 @@ class Ours:
     """The project's optimizer step (adapt.stages.pretrain._optimizer_step) on packed sequences."""
 
     def __init__(self, tokenizer, train: PackedSequences, schedule: ScheduleConfig, attn: str = "sdpa",
-                 compile_module: bool = False, attention_dropout: float | None = None, bf16: bool = False):
+                 compile_module: bool = False, attention_dropout: float | None = None, bf16: bool = False,
+                 seed: int = SEED):
         self.bf16 = bf16  # bf16 autocast around the step, as the stage's Accelerator(mixed_precision="bf16") does
-        self.cfg = PretrainJob(corpus_dir="-", seed=SEED, schedule=schedule)
+        self.cfg = PretrainJob(corpus_dir="-", seed=seed, schedule=schedule)  # seed: masks, dropout, batch order
         # attention_dropout: dropout on the attention probabilities (BERT: 0.1), as encoder.attention_dropout sets it
         self.model, _ = load_mlm(self.cfg.encoder, attention_dropout=attention_dropout)
         if attn != self.model.config._attn_implementation:
@@ -148,7 +152,7 @@ class Ours:
                                   num_training_steps=schedule.max_steps)
         trainable, total = count_trainable(self.model)
         self.t = Training(build_adapter("full"), self.counting, optimizer, scheduler,
-                          BatchCursor(len(train), BATCH, SEED), trainable, total, {})
+                          BatchCursor(len(train), BATCH, seed), trainable, total, {})
         self.data = RunData(train, {}, {})
         self.accelerator = Accelerator(cpu=True, mixed_precision="no")
         self.params = [p for p in self.counting.parameters() if p.requires_grad]
@@ -162,15 +166,17 @@ class Ours:
 class Plain:
     """The library's standard loop: collator masking, full-vocabulary logits, default AdamW."""
 
-    def __init__(self, tokenizer, chunks: torch.Tensor, schedule: ScheduleConfig):
+    def __init__(self, tokenizer, chunks: torch.Tensor, schedule: ScheduleConfig, seed: int = SEED):
         self.model, _ = load_mlm(EncoderConfig())
         self.model.train()
-        self.collator = DataCollatorForLanguageModeling(tokenizer, mlm_probability=0.15, seed=SEED)
+        self.seed = seed  # masks and chunk order; dropout draws follow the global RNG, seeded in step()
+        self.steps = 0
+        self.collator = DataCollatorForLanguageModeling(tokenizer, mlm_probability=0.15, seed=seed)
         self.optimizer = torch.optim.AdamW(self.model.parameters(), lr=schedule.learning_rate)
         self.scheduler = get_scheduler(schedule.decay, self.optimizer, num_warmup_steps=schedule.warmup_steps,
                                        num_training_steps=schedule.max_steps)
         self.chunks = chunks
-        self.order = torch.randperm(len(chunks), generator=torch.Generator().manual_seed(SEED))
+        self.order = torch.randperm(len(chunks), generator=torch.Generator().manual_seed(seed))
         self.position, self.decoded = 0, 0
 
     def step(self) -> float:
@@ -179,6 +185,8 @@ class Plain:
         rows = self.order[self.position:self.position + BATCH]
         self.position += BATCH
         batch = self.collator([{"input_ids": r} for r in self.chunks[rows].tolist()])
+        torch.manual_seed(self.seed * 100_003 + self.steps)  # dropout: the loops alternate, so each seeds its own
+        self.steps += 1
         loss = self.model(**batch).loss
         loss.backward()
         torch.nn.utils.clip_grad_norm_(self.model.parameters(), 1.0)
@@ -189,8 +197,38 @@ class Plain:
         return float(loss.detach())
 
 
-def heldout_loss(model, evals: FixedMaskEval) -> float:
-    return evals.loss(MaskedOnlyMlm(model), torch.device("cpu"), contextlib.nullcontext)
+@torch.no_grad()
+def sequence_losses(model, evals: FixedMaskEval) -> tuple[np.ndarray, np.ndarray]:
+    """Per held-out sequence: the summed cross-entropy at its masked positions, and their number."""
+    model.eval()
+    sums, counts = [], []
+    for start in range(0, len(evals.input_ids), evals.batch_size):
+        sl = slice(start, start + evals.batch_size)
+        labels = evals.labels[sl]  # (B, T)
+        logits = model(input_ids=evals.input_ids[sl], attention_mask=evals.attention_mask[sl]).logits  # (B, T, V)
+        ce = F.cross_entropy(logits.float().transpose(1, 2), labels, ignore_index=IGNORE_INDEX, reduction="none")
+        sums.append(ce.sum(dim=1).double().numpy())
+        counts.append((labels != IGNORE_INDEX).sum(dim=1).numpy())
+    model.train()
+    return np.concatenate(sums), np.concatenate(counts)
+
+
+def mean_loss(losses: tuple[np.ndarray, np.ndarray]) -> float:
+    return float(losses[0].sum() / max(losses[1].sum(), 1))
+
+
+def paired_difference(a: tuple[np.ndarray, np.ndarray], b: tuple[np.ndarray, np.ndarray],
+                      resamples: int = 10_000) -> dict:
+    """Held-out loss of a minus b on the same masked tokens, with a 95% percentile interval from a paired
+    bootstrap (Koehn 2004, "Statistical significance tests for machine translation evaluation": both systems
+    scored on the same resampled items). Whole sequences are resampled, since the tokens of one sequence are not
+    independent (common practice: a cluster bootstrap)."""
+    (sa, counts), (sb, _) = a, b
+    idx = np.random.default_rng(SEED).integers(0, len(counts), (resamples, len(counts)))  # (R, n) sequences
+    diff = (sa[idx].sum(axis=1) - sb[idx].sum(axis=1)) / counts[idx].sum(axis=1)
+    low, high = np.percentile(diff, [2.5, 97.5])
+    return {"difference": round(mean_loss(a) - mean_loss(b), 4), "ci95": [round(float(low), 4), round(float(high), 4)],
+            "verdict": "better" if high < 0 else ("worse" if low > 0 else "no detectable difference")}
 
 
 def alternate(loops: dict, steps: int) -> dict:
@@ -241,25 +279,34 @@ def main() -> None:
                               warmup_steps=max(1, args.steps // 10), batch_size=BATCH)
     loops = {"ours": Ours(tokenizer, train, schedule),
              "ours_no_attention_dropout": Ours(tokenizer, train, schedule, attention_dropout=0.0),
-             "plain": Plain(tokenizer, plain_chunks(tokenizer, train_texts), schedule)}
+             "plain": Plain(tokenizer, plain_chunks(tokenizer, train_texts), schedule),
+             # the same loops with another seed (masks, batch order, dropout): how far apart training noise alone
+             # puts two runs of one loop, the yardstick for "equal held-out loss"
+             "ours_seed1": Ours(tokenizer, train, schedule, seed=SEED + 1),
+             "plain_seed1": Plain(tokenizer, plain_chunks(tokenizer, train_texts), schedule, seed=SEED + 1)}
     if out["machine"]["bf16_native"]:  # the >= 3x target where bf16 is native: our step in bf16 vs plain in fp32
         loops["ours_bf16"] = Ours(tokenizer, train, schedule, bf16=True)
         loops["ours_bf16_no_attention_dropout"] = Ours(tokenizer, train, schedule, attention_dropout=0.0, bf16=True)
-    start_loss = heldout_loss(loops["plain"].model, evals)
+    start_loss = mean_loss(sequence_losses(loops["plain"].model, evals))
     times = alternate(loops, args.steps)
     tokens_per_step = BATCH * SEQ
     params = flop_params(loops["ours"].model)
     out["flop_params"] = params
     tokens = tokens_per_step * args.steps
+    losses = {}
     out["heldout"] = {"sequences": len(evals.input_ids), "masked_tokens": evals.num_masked,
                       "train_tokens_each": tokens, "loss_at_start": round(start_loss, 4)}
     for name, loop in loops.items():
-        decoded = loop.decoded if name == "plain" else loop.counting.decoded
+        decoded = loop.decoded if isinstance(loop, Plain) else loop.counting.decoded
         out[name] = summary(times[name], tokens_per_step, model_flops(params, tokens, decoded), args.steps,
                             *((peak["bf16_gflops"], "bf16") if "bf16" in name else (peak["fp32_gflops"], "fp32")))
-        out["heldout"][f"loss_{name}"] = round(heldout_loss(loop.model, evals), 4)
+        losses[name] = sequence_losses(loop.model, evals)
+        out["heldout"][f"loss_{name}"] = round(mean_loss(losses[name]), 4)
     for name in [n for n in loops if n != "plain"]:
         out[f"speedup_{name}_over_plain"] = round(out[name]["tokens_per_s"] / out["plain"]["tokens_per_s"], 2)
+        out["heldout"][f"{name}_minus_plain"] = paired_difference(losses[name], losses["plain"])
+    out["heldout"]["ours_seed1_minus_ours"] = paired_difference(losses["ours_seed1"], losses["ours"])
+    out["heldout"]["ours_seed1_minus_plain_seed1"] = paired_difference(losses["ours_seed1"], losses["plain_seed1"])
     del loops
 
     # speed only: our step with eager attention, and compiled; alternated with the default (SDPA) step
@@ -280,7 +327,7 @@ def main() -> None:
     out["matmul_peak"]["fp32_gflops_end"] = round(peak_end, 1)
     if peak_end > peak["fp32_gflops"]:
         scale = peak["fp32_gflops"] / peak_end
-        for name in [n for n in ("ours", "ours_no_attention_dropout", "plain") if n in out]:
+        for name in [n for n, v in out.items() if isinstance(v, dict) and "mfu_fp32" in v]:
             out[name]["mfu_fp32"] = round(out[name]["mfu_fp32"] * scale, 3)
     print(json.dumps(out, indent=2))
 

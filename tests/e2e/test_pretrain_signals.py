@@ -24,8 +24,8 @@ from tests.e2e.test_pretrain import _restore_threads, tiny_cfg  # noqa: F401 (an
 # phase -> (function of adapt.stages.pretrain that signals when entered, on which call)
 PHASES = {
     "tokenise": ("load_run_data", 1),
-    "warm_up": ("warm_up_head", 1),
-    "base": ("_measure_base", 1),
+    "warm_up": ("warm_up_missing_head", 1),
+    "base": ("measure_base", 1),
     "train": ("_optimizer_step", 3),
     "final_eval": ("_finish", 1),
     "export": ("write_model_card", 1),

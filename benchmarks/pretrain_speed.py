@@ -7,7 +7,8 @@ gradient clipping at 1.0, and the same number of training tokens. Their steps al
 a shared machine falls on both alike.
 
 ours:  adapt.stages.pretrain._optimizer_step, the loop's own step: packed sequences (adapt.training.packing),
-       MaskingPlan, MaskedOnlyMlm (head and cross-entropy only at masked positions), build_adamw (fused AdamW).
+       MaskingPlan, MaskedOnlyMlm (head and cross-entropy only at masked positions), the tied embedding's lookup
+       gradient as sparse rows (sparse_tied_embedding_grad), build_adamw (fused AdamW).
 plain: fixed-length chunks of 128 tokens, transformers' DataCollatorForLanguageModeling (mlm_probability 0.15),
        model(**batch) computing vocabulary logits at every position, torch.optim.AdamW with its defaults.
 
@@ -46,7 +47,7 @@ from adapt.training.run_data import RunData
 from adapt.training.adapters import build_adapter, count_trainable
 from adapt.training.encoder import load_mlm, load_tokenizer
 from adapt.training.masking import IGNORE_INDEX
-from adapt.training.mlm_loss import FixedMaskEval, MaskedOnlyMlm, MaskingPlan
+from adapt.training.mlm_loss import FixedMaskEval, MaskedOnlyMlm, MaskingPlan, sparse_tied_embedding_grad
 from adapt.training.optimizer import build_adamw
 from adapt.training.packing import BatchCursor, PackedSequences, SequencePacker
 from adapt.training.resume import Training
@@ -155,6 +156,7 @@ class Ours:
                           BatchCursor(len(train), BATCH, seed), trainable, total, {})
         self.data = RunData(train, {}, {})
         self.accelerator = Accelerator(cpu=True, mixed_precision="no")
+        sparse_tied_embedding_grad(self.model)  # as the stage's set-up does for a trainable tied embedding
         self.params = [p for p in self.counting.parameters() if p.requires_grad]
 
     def step(self) -> float:

@@ -41,7 +41,7 @@ from adapt.training.base_model import (format_figures, measure_base, run_precisi
                                        warm_up_missing_head, warmup_record)
 from adapt.training.export import CI_HIGH, CI_LOW, export_checkpoint, export_saved, measure_pppl
 from adapt.training.model_card import write_model_card
-from adapt.training.mlm_loss import MaskedOnlyMlm, MaskingPlan
+from adapt.training.mlm_loss import MaskedOnlyMlm, MaskingPlan, sparse_tied_embedding_grad
 from adapt.training.optimizer import build_adamw
 from adapt.training.packing import replay_rows
 from adapt.training.ranks import on_main
@@ -110,6 +110,7 @@ def _set_up_training(s: Session, adapter: Adapter, model, data: RunData, resume_
         restore_training(t, model, Path(resume_from))
     # wrap for several processes only after the state is restored into the plain modules
     t.loss_module, t.optimizer = accelerator.prepare(t.loss_module, t.optimizer)
+    sparse_tied_embedding_grad(model)  # after the wrap: DDP keeps expecting the dense gradient it gets
     return t
 
 

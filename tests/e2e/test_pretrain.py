@@ -151,8 +151,13 @@ def test_resume_never_refuses_an_existing_run(tmp_path, tiny_encoder):
 
 
 @pytest.mark.parametrize("kind", ["full", "lora", "embeddings", "top_layers"])
-def test_every_adapter_trains_and_exports(tmp_path, tiny_encoder, kind):
+def test_every_adapter_trains_and_exports(tmp_path, tiny_encoder, kind, monkeypatch):
+    import adapt.stages.pretrain as stage
+
+    switched, original = [], stage.sparse_tied_embedding_grad  # on exactly where the tied embedding weight trains
+    monkeypatch.setattr(stage, "sparse_tied_embedding_grad", lambda model: switched.append(original(model)))
     result = run(tiny_cfg(tmp_path, tiny_encoder, kind, f"adapter={kind}", "adapter.num_top_layers=1"))
+    assert switched == [kind in ("full", "embeddings")]
     from transformers import AutoModelForMaskedLM
 
     model, info = AutoModelForMaskedLM.from_pretrained(tmp_path / kind / "final", output_loading_info=True)

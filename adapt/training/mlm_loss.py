@@ -1,7 +1,8 @@
 """The MLM objective computed where it matters: the head runs only at masked positions.
 
 The vocab-sized decoder over every position costs more than a small encoder itself (PITFALLS: MiniLM, 30522
-outputs), so the loss module gathers the masked positions first. The loss stays inside the module's ``forward`` so
+outputs), so the loss module gathers the masked positions first; the encoder's last layer also runs at those positions
+only where its architecture allows (``adapt.training.final_layer``). The loss stays inside the module's ``forward`` so
 that wrappers for several processes (DDP) and autocast see it.
 """
 
@@ -12,6 +13,7 @@ import torch.nn.functional as F
 
 from adapt.common.seeding import step_seed
 from adapt.training.encoder import encoder_body, mlm_head
+from adapt.training.final_layer import masked_final_states, supports_masked_final_layer
 from adapt.training.masking import IGNORE_INDEX, mask_tokens, replacement_ids, special_positions
 from adapt.training.packing import PackedSequences
 
@@ -28,12 +30,17 @@ class MaskedOnlyMlm(torch.nn.Module):
         head = mlm_head(self.model)
         if head is None:  # unknown architecture: let the model compute its own loss over all positions
             return self.model(input_ids=input_ids, attention_mask=attention_mask, labels=labels).loss
+        body, selected = encoder_body(self.model), labels != IGNORE_INDEX  # (B, T)
+        any_selected = bool(selected.any())
         with torch.set_grad_enabled(body_grad and torch.is_grad_enabled()):
-            hidden = encoder_body(self.model)(input_ids=input_ids, attention_mask=attention_mask).last_hidden_state
-        selected = labels != IGNORE_INDEX  # (B, T)
-        if not bool(selected.any()):  # a zero that still reaches the decoder, so every step's gradients are dense
+            if any_selected and supports_masked_final_layer(body):
+                states = masked_final_states(body, input_ids, attention_mask, selected)  # (M, hidden)
+            else:
+                hidden = body(input_ids=input_ids, attention_mask=attention_mask).last_hidden_state
+                states = hidden[selected]
+        if not any_selected:  # a zero that still reaches the decoder, so every step's gradients are dense
             return head(hidden.reshape(-1, hidden.shape[-1])[:1]).sum() * 0.0
-        logits = head(hidden[selected])  # (M, V) for the M masked positions only
+        logits = head(states)  # (M, V) for the M masked positions only
         return F.cross_entropy(logits.float(), labels[selected])
 
 

@@ -7,8 +7,8 @@ gradient clipping at 1.0, and the same number of training tokens. Their steps al
 a shared machine falls on both alike.
 
 ours:  adapt.stages.pretrain._optimizer_step, the loop's own step: packed sequences (adapt.training.packing),
-       MaskingPlan, MaskedOnlyMlm (head and cross-entropy only at masked positions), the tied embedding's lookup
-       gradient as sparse rows (sparse_tied_embedding_grad), build_adamw (fused AdamW).
+       MaskingPlan, MaskedOnlyMlm (head, cross-entropy and the encoder's last layer only at masked positions),
+       the tied embedding's lookup gradient as sparse rows (sparse_tied_embedding_grad), build_adamw (fused AdamW).
 plain: fixed-length chunks of 128 tokens, transformers' DataCollatorForLanguageModeling (mlm_probability 0.15),
        model(**batch) computing vocabulary logits at every position, torch.optim.AdamW with its defaults.
 
@@ -17,9 +17,10 @@ natively), each loop's model-FLOPs utilisation, the held-out MLM loss of both on
 (and each loop's difference from plain with a 95% paired bootstrap interval over those sequences; ``ours_seed1``
 and ``plain_seed1``, the same loops with another seed for masks, batch order and dropout, show how far apart
 training noise alone puts two runs of one loop),
-and two variants of our step: ``ours_no_attention_dropout`` (the same step with the attention-probability
+and variants of our step: ``ours_no_attention_dropout`` (the same step with the attention-probability
 dropout at 0, which lets SDPA use its fused kernel on CPU; trained and scored like the others) and, speed only,
-eager attention instead of SDPA and (--compile) torch.compile of the loss module.
+eager attention instead of SDPA, the lookup gradient dense, the last layer at every position, and (--compile)
+torch.compile of the loss module.
 Prints JSON. Usage: python benchmarks/pretrain_speed.py [--steps 20] [--variant-steps 4] [--threads 0] [--compile]
 """
 
@@ -107,9 +108,9 @@ def plain_chunks(tokenizer, texts: list[str]) -> torch.Tensor:
 class CountingMlm(torch.nn.Module):
     """MaskedOnlyMlm that also counts the positions the decoder runs at (for the FLOP count)."""
 
-    def __init__(self, model):
+    def __init__(self, model, masked_final_layer: bool = True):
         super().__init__()
-        self.inner = MaskedOnlyMlm(model)
+        self.inner = MaskedOnlyMlm(model, masked_final_layer)
         self.decoded = 0
 
     def forward(self, input_ids, attention_mask, labels):
@@ -136,7 +137,7 @@ class Ours:
 
     def __init__(self, tokenizer, train: PackedSequences, schedule: ScheduleConfig, attn: str = "sdpa",
                  compile_module: bool = False, attention_dropout: float | None = None, bf16: bool = False,
-                 seed: int = SEED):
+                 seed: int = SEED, sparse_lookup: bool = True, masked_final_layer: bool = True):
         self.bf16 = bf16  # bf16 autocast around the step, as the stage's Accelerator(mixed_precision="bf16") does
         self.cfg = PretrainJob(corpus_dir="-", seed=seed, schedule=schedule)  # seed: masks, dropout, batch order
         # attention_dropout: dropout on the attention probabilities (BERT: 0.1), as encoder.attention_dropout sets it
@@ -144,7 +145,7 @@ class Ours:
         if attn != self.model.config._attn_implementation:
             self.model.set_attn_implementation(attn)
         self.plan = MaskingPlan(tokenizer, 0.15, 0.8, 0.1)
-        self.counting = CountingMlm(self.model)
+        self.counting = CountingMlm(self.model, masked_final_layer)
         module = torch.compile(self.counting.inner) if compile_module else None
         if module is not None:
             self.counting.inner = module
@@ -156,7 +157,8 @@ class Ours:
                           BatchCursor(len(train), BATCH, seed), trainable, total, {})
         self.data = RunData(train, {}, {})
         self.accelerator = Accelerator(cpu=True, mixed_precision="no")
-        sparse_tied_embedding_grad(self.model)  # as the stage's set-up does for a trainable tied embedding
+        if sparse_lookup:  # as the stage's set-up does for a trainable tied embedding
+            sparse_tied_embedding_grad(self.model)
         self.params = [p for p in self.counting.parameters() if p.requires_grad]
 
     def step(self) -> float:
@@ -311,11 +313,14 @@ def main() -> None:
     out["heldout"]["ours_seed1_minus_plain_seed1"] = paired_difference(losses["ours_seed1"], losses["plain_seed1"])
     del loops
 
-    # speed only: our step with eager attention, and compiled; alternated with the default (SDPA) step
+    # speed only, alternated with our step as the stage runs it (SDPA): eager attention, the tied embedding's lookup
+    # gradient dense, the last layer at every position, and (--compile) compiled
     variant_schedule = ScheduleConfig(learning_rate=args.learning_rate, max_steps=args.variant_steps + WARM_STEPS,
                                       warmup_steps=1, batch_size=BATCH)
     variants = {"sdpa": Ours(tokenizer, train, variant_schedule),
-                "eager": Ours(tokenizer, train, variant_schedule, attn="eager")}
+                "eager": Ours(tokenizer, train, variant_schedule, attn="eager"),
+                "dense_lookup_grad": Ours(tokenizer, train, variant_schedule, sparse_lookup=False),
+                "full_last_layer": Ours(tokenizer, train, variant_schedule, masked_final_layer=False)}
     if args.compile:
         variants["compiled"] = Ours(tokenizer, train, variant_schedule, compile_module=True)
         first = time.perf_counter()

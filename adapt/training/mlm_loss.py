@@ -19,11 +19,12 @@ from adapt.training.packing import PackedSequences
 
 
 class MaskedOnlyMlm(torch.nn.Module):
-    """forward(input_ids, attention_mask, labels) -> mean cross-entropy over positions with a label."""
+    """forward(input_ids, attention_mask, labels) -> mean cross-entropy over positions with a label.
+    ``masked_final_layer=False`` runs the last layer everywhere (the same numbers; for speed comparisons)."""
 
-    def __init__(self, model: torch.nn.Module):
+    def __init__(self, model: torch.nn.Module, masked_final_layer: bool = True):
         super().__init__()
-        self.model = model
+        self.model, self.masked_final_layer = model, masked_final_layer
 
     def forward(self, input_ids: torch.Tensor, attention_mask: torch.Tensor, labels: torch.Tensor,
                 body_grad: bool = True) -> torch.Tensor:
@@ -33,7 +34,7 @@ class MaskedOnlyMlm(torch.nn.Module):
         body, selected = encoder_body(self.model), labels != IGNORE_INDEX  # (B, T)
         any_selected = bool(selected.any())
         with torch.set_grad_enabled(body_grad and torch.is_grad_enabled()):
-            if any_selected and supports_masked_final_layer(body):
+            if any_selected and self.masked_final_layer and supports_masked_final_layer(body):
                 states = masked_final_states(body, input_ids, attention_mask, selected)  # (M, hidden)
             else:
                 hidden = body(input_ids=input_ids, attention_mask=attention_mask).last_hidden_state

@@ -38,6 +38,7 @@ from adapt.config.score import VARIANTS
 from adapt.common.errors import ConfigError
 from adapt.common.runtime import autocast_context
 from adapt.training.encoder import encoder_body, mlm_head
+from adapt.training.final_layer import final_states_at
 
 log = logging.getLogger(__name__)
 
@@ -77,15 +78,16 @@ def position_log_probs(model: PreTrainedModel, input_ids: torch.Tensor, attentio
                        masked_head_only: bool = True) -> torch.Tensor:
     """log P(targets[b] | input_ids[b]) at positions[b], as a (B,) float32 tensor.
 
-    ``masked_head_only`` runs the MLM head on the (B, H) hidden states at the given positions only; otherwise
-    (or when the model has no known head module) the full forward computes logits at every position.
+    ``masked_head_only`` runs the MLM head (and, where the encoder allows it, its last layer) at the given positions
+    only; otherwise (or when the model has no known head module) the full forward computes logits at every position.
     """
     head = mlm_head(model) if masked_head_only else None
     rows = torch.arange(input_ids.shape[0], device=input_ids.device)
     with torch.inference_mode(), autocast_context(precision, input_ids.device):
-        if head is not None:
-            hidden = encoder_body(model)(input_ids=input_ids, attention_mask=attention_mask)[0]  # (B, L, H)
-            logits = head(hidden[rows, positions])  # (B, V)
+        if head is not None:  # the last layer, too, at the scored position only where the encoder allows it
+            scored = torch.zeros_like(input_ids, dtype=torch.bool)
+            scored[rows, positions] = True  # one position a row: final_states_at keeps the rows' order
+            logits = head(final_states_at(encoder_body(model), input_ids, attention_mask, scored))  # (B, V)
         else:
             logits = model(input_ids=input_ids, attention_mask=attention_mask).logits[rows, positions]  # (B, V)
         logp = torch.log_softmax(logits.float(), dim=-1)  # fp32 even under autocast

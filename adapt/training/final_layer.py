@@ -31,6 +31,15 @@ def supports_masked_final_layer(body: torch.nn.Module) -> bool:
             and getattr(body, "pooler", None) is None)
 
 
+def final_states_at(body: torch.nn.Module, input_ids: torch.Tensor, attention_mask: torch.Tensor,
+                    selected: torch.Tensor, masked_only: bool = True) -> torch.Tensor:
+    """(M, hidden) final hidden states at the ``selected`` (B, T) positions, in ``hidden[selected]`` order: the last
+    layer at those positions only where the encoder allows it (and ``masked_only``), else the full forward's."""
+    if masked_only and bool(selected.any()) and supports_masked_final_layer(body):
+        return masked_final_states(body, input_ids, attention_mask, selected)
+    return body(input_ids=input_ids, attention_mask=attention_mask).last_hidden_state[selected]
+
+
 def masked_final_states(body: torch.nn.Module, input_ids: torch.Tensor, attention_mask: torch.Tensor,
                         selected: torch.Tensor) -> torch.Tensor:
     """(M, hidden) final hidden states of the ``selected`` (B, T) positions, in ``hidden[selected]`` order."""

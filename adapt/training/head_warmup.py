@@ -19,6 +19,7 @@ from tqdm.auto import tqdm
 
 from adapt.common.seeding import step_seed
 from adapt.training.encoder import encoder_body, head_parameter_names, mlm_head, unwrap_peft
+from adapt.training.final_layer import final_states_at
 from adapt.training.masking import IGNORE_INDEX
 from adapt.training.mlm_loss import MaskingPlan
 from adapt.training.packing import PackedSequences
@@ -88,9 +89,9 @@ def cache_masked_states(model: torch.nn.Module, seqs: PackedSequences, plan: Mas
                 return None
             sl = slice(start, start + batch_size)
             selected = labels[sl] != IGNORE_INDEX  # (B, T)
-            with autocast():
-                states = body(input_ids=masked[sl].to(device), attention_mask=mask[sl].to(device)).last_hidden_state
-            hidden.append(states[selected.to(device)].float().cpu())  # (m, H)
+            with autocast():  # (m, H): the last layer at the masked positions only, where the encoder allows it
+                states = final_states_at(body, masked[sl].to(device), mask[sl].to(device), selected.to(device))
+            hidden.append(states.float().cpu())
             kept.append(labels[sl][selected])
             owner.append(torch.arange(start, start + selected.shape[0]).unsqueeze(1).expand_as(selected)[selected])
     finally:

@@ -13,7 +13,7 @@ import torch.nn.functional as F
 
 from adapt.common.seeding import step_seed
 from adapt.training.encoder import encoder_body, mlm_head
-from adapt.training.final_layer import masked_final_states, supports_masked_final_layer
+from adapt.training.final_layer import final_states_at
 from adapt.training.masking import IGNORE_INDEX, mask_tokens, replacement_ids, special_positions
 from adapt.training.packing import PackedSequences
 
@@ -32,15 +32,13 @@ class MaskedOnlyMlm(torch.nn.Module):
         if head is None:  # unknown architecture: let the model compute its own loss over all positions
             return self.model(input_ids=input_ids, attention_mask=attention_mask, labels=labels).loss
         body, selected = encoder_body(self.model), labels != IGNORE_INDEX  # (B, T)
-        any_selected = bool(selected.any())
+        if not bool(selected.any()):  # a zero that still reaches the decoder, so every step's gradients are dense
+            selected = torch.zeros_like(selected)
+            selected[0, 0] = True
+            with torch.set_grad_enabled(body_grad and torch.is_grad_enabled()):
+                return head(final_states_at(body, input_ids, attention_mask, selected)).sum() * 0.0
         with torch.set_grad_enabled(body_grad and torch.is_grad_enabled()):
-            if any_selected and self.masked_final_layer and supports_masked_final_layer(body):
-                states = masked_final_states(body, input_ids, attention_mask, selected)  # (M, hidden)
-            else:
-                hidden = body(input_ids=input_ids, attention_mask=attention_mask).last_hidden_state
-                states = hidden[selected]
-        if not any_selected:  # a zero that still reaches the decoder, so every step's gradients are dense
-            return head(hidden.reshape(-1, hidden.shape[-1])[:1]).sum() * 0.0
+            states = final_states_at(body, input_ids, attention_mask, selected, self.masked_final_layer)  # (M, H)
         logits = head(states)  # (M, V) for the M masked positions only
         return F.cross_entropy(logits.float(), labels[selected])
 

@@ -275,6 +275,10 @@ def prepare_main() -> None:
     _launch("prepare", "adapt.stages.prepare")
 
 
+def vocab_main() -> None:
+    _launch("vocab", "adapt.stages.vocab")
+
+
 def pretrain_main() -> None:
     _launch("pretrain", "adapt.stages.pretrain")
 

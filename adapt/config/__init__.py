@@ -15,7 +15,7 @@ from typing import Any, Callable
 from hydra.core.config_store import ConfigStore
 from omegaconf import DictConfig, OmegaConf
 
-from adapt.config import compare, demo, prepare, pretrain, report, score
+from adapt.config import compare, demo, prepare, pretrain, report, score, vocab
 from adapt.common.errors import ConfigError, Problems
 
 
@@ -41,6 +41,7 @@ class JobSpec:
 
 JOBS: dict[str, JobSpec] = {
     "prepare": JobSpec("prepare", prepare.PrepareJob, prepare.validate),
+    "vocab": JobSpec("vocab", vocab.VocabJob, vocab.validate),
     "pretrain": JobSpec("pretrain", pretrain.PretrainJob, pretrain.validate),
     "score": JobSpec("score", score.ScoreJob, score.validate),
     "compare": JobSpec("compare", compare.CompareJob, compare.validate),

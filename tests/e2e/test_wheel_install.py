@@ -25,7 +25,8 @@ pytestmark = pytest.mark.slow
 ROOT = Path(__file__).resolve().parents[2]
 SAMPLES = ROOT / "corpora_samples"
 LEGAL_SUBSET = ("judgment.jsonl", "tenancy_notice.jsonl", "contract_clauses.jsonl")
-SCRIPTS = ("adapt-prepare", "adapt-pretrain", "adapt-score", "adapt-compare", "adapt-report", "adapt-demo")
+SCRIPTS = ("adapt-prepare", "adapt-vocab", "adapt-pretrain", "adapt-score", "adapt-compare", "adapt-report",
+           "adapt-demo")
 
 
 def _run(cmd: list[str], **kwargs) -> subprocess.CompletedProcess:

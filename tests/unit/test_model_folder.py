@@ -48,6 +48,16 @@ def test_a_pretrain_run_folder_means_its_final_folder_everywhere(tmp_path):
     assert not report.needs_warmup and model.config.hidden_size == 32
 
 
+def test_a_vocab_folder_means_its_model_folder_everywhere(tmp_path):
+    out = tmp_path / "vocab"
+    build_tiny_encoder(out / "model")
+    (out / "vocab_report.json").write_text("{}")
+    model_dir = str(out / "model")
+    assert resolve_model_folder(str(out), "encoder.name_or_path") == model_dir
+    assert resolve_checkpoint("adapted", str(out)) == model_dir
+    assert load_tokenizer(EncoderConfig(name_or_path=str(out))).mask_token == "[MASK]"
+
+
 def test_a_folder_without_config_is_refused_by_every_stage(tmp_path):
     folder = tmp_path / "not-a-model"
     folder.mkdir()

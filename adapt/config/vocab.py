@@ -24,6 +24,10 @@ class WordRuleConfig:
     min_chars: int = 4
     # Only words made of letters (plus inner hyphens and apostrophes): no numbers, dates, codes or identifiers.
     letters_only: bool = True
+    # Words written with a capital letter in more than this share of their occurrences inside a sentence are
+    # taken for names (of people, firms, places) and left out; 1.0 turns the rule off. Text in lower case only
+    # gives every word a share of 0, so there the rule finds nothing.
+    max_capitalised_share: float = 0.9
     # With a general corpus: a word must be at least this many times more frequent (per word of text, add-one
     # smoothed) in the domain corpus than in general text, so that common words the tokenizer happens to split
     # are left to it.
@@ -62,5 +66,7 @@ def validate(cfg: VocabJob, p: Problems, prefix: str = "") -> None:
     p.check(w.min_pieces >= 2, f"{k}words.min_pieces={w.min_pieces} must be >= 2 (a word of one piece is already "
                                f"a token); try {k}words.min_pieces=2")
     p.check(w.min_chars >= 1, f"{k}words.min_chars={w.min_chars} must be >= 1; try {k}words.min_chars=4")
+    p.check(0.0 <= w.max_capitalised_share <= 1.0, f"{k}words.max_capitalised_share={w.max_capitalised_share} is "
+                                                   f"outside [0, 1]; try {k}words.max_capitalised_share=0.9")
     p.check(w.min_domain_ratio > 0, f"{k}words.min_domain_ratio={w.min_domain_ratio} must be > 0; "
                                     f"try {k}words.min_domain_ratio=4")

@@ -28,7 +28,7 @@ from adapt.corpus.profile import tokenizer_stats
 from adapt.training.encoder import KEY, encoder_body, load_mlm, load_tokenizer, open_tokenizer, vocab_sha256
 from adapt.training.export import export_checkpoint
 from adapt.training.vocab import (ChosenWord, WordCounts, choose_words, count_words, extend_embeddings,
-                                  extend_tokenizer, require_wordpiece)
+                                  extend_tokenizer, require_wordpiece, rule_tally)
 
 log = logging.getLogger(__name__)
 
@@ -37,7 +37,8 @@ FERTILITY_DOCS = 2000  # documents per text set on which fertility is measured b
 BATCH_ROWS = 1024
 VOCAB_CAUTION = ("The added words are listed in vocab_report.json and ship inside the model's tokenizer, where "
                  "anyone who gets the model can read them: review the list before the model leaves your "
-                 "governance, and raise words.min_docs if a name, place or case detail got in.")
+                 "governance; if a name, place or case detail got in, raise words.min_docs or lower "
+                 "words.max_capitalised_share.")
 
 
 def _texts(shards: list[Path], limit: int) -> list[str]:
@@ -91,6 +92,9 @@ def _summary(result: dict) -> list[str]:
     lines = [f"added {result['added_count']:,} words to the vocabulary ({result['base_vocab_size']:,} -> "
              f"{result['vocab_size']:,} tokens); first: "
              + ", ".join(w["word"] for w in result["added"][:8])]
+    left = result["left_out"]
+    lines.append(f"  of {sum(left.values()):,} words cut into pieces, {left['passed']:,} met the rule; left out by "
+                 + ", ".join(f"words.{key} {n:,}" for key, n in left.items() if key != "passed"))
     for name, f in result["fertility"].items():
         lines.append(f"  {name:<8} fertility {f['fertility_before']:.3f} -> {f['fertility_after']:.3f} tokens/word "
                      f"({f['tokens_saved_share']:.1%} fewer tokens on {f['docs']:,} documents)")
@@ -151,6 +155,7 @@ def _extend(cfg: VocabJob, path: str, setting: str, base_tok, train, heldout, ge
         "embedding_init": "mean of the word's pieces' embedding rows",
         "counted": {"docs": domain.total_docs, "words": domain.total_words, "distinct_words": len(domain.count)},
         "rule": dict(vars(cfg.words)), "general": optional_str(cfg.general),
+        "left_out": rule_tally(domain, cfg.words, known, general_counts),
         "fertility": _fertility(base_tok, tokenizer, texts),
         "weights": weights,
         "added": [_word_record(w, new_ids[w.word], base_tok) for w in words],

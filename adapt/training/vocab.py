@@ -4,8 +4,11 @@
   so a chosen word is exactly what the extended tokenizer then matches.
 - A word is ranked by the tokens it saves on the training text, count × (pieces − 1); a word that is split into
   many pieces inflates fertility (Rust et al. 2021), and adding frequent domain words to the vocabulary recovered
-  most of the gain of domain pretraining in Sachidananda et al. 2021 (their §3 ranks by the divergence of domain
-  and general subword-sequence frequencies; the tokens-saved rank with a domain/general ratio floor is ours).
+  most of the gain of domain pretraining in Sachidananda et al. 2021 (their method ranks by the divergence of
+  domain and general subword-sequence frequencies, from memory; the tokens-saved rank with a domain/general ratio
+  floor is ours).
+- Names are kept out by two rules of ours, not by a published method: a word must appear in several documents, and
+  a word that is nearly always capitalised inside a sentence is taken for a proper noun (a person, firm or place).
 - The new words are added as whole-word tokens (``AddedToken(single_word=True)``: never matched inside a longer
   word), and each new embedding row starts at the mean of its pieces' rows (common practice for new tokens), so
   the model starts from what it already knew of the word; an MLM output bias, where there is one, likewise.
@@ -15,7 +18,7 @@ from __future__ import annotations
 
 import re
 from collections import Counter
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Iterable
 
 import torch
@@ -28,15 +31,29 @@ WORD_RE = re.compile(r"[^\W\d_]+(?:[-'’][^\W\d_]+)*", re.UNICODE)  # letters, 
 MAX_DOC_CHARS = 200_000  # per document counted: a longer one adds little to word counts and costs memory
 
 
+SENTENCE_OPENERS = frozenset('.!?:\n"(“')  # after one of these (spaces skipped) a word starts a sentence
+
+
 @dataclass
 class WordCounts:
-    """Occurrences and document counts of every word of some text, with the pieces the tokenizer cut it into."""
+    """Occurrences and document counts of every word of some text, with the pieces the tokenizer cut it into;
+    ``inside`` counts the occurrences inside a sentence and ``capitalised`` those of them that start with a
+    capital letter (the proper-noun rule)."""
 
     count: Counter
     docs: Counter
     pieces: dict[str, tuple[int, ...]]
     total_words: int = 0
     total_docs: int = 0
+    inside: Counter = field(default_factory=Counter)
+    capitalised: Counter = field(default_factory=Counter)
+
+    def capitalised_share(self, word: str) -> float:
+        """Share of the word's occurrences inside a sentence written with a capital; 0 for a word seen only at
+        the start of sentences, where a capital says nothing."""
+        if self.inside[word]:
+            return self.capitalised[word] / self.inside[word]
+        return 0.0
 
 
 def require_wordpiece(tokenizer: PreTrainedTokenizerBase, setting: str) -> None:
@@ -84,11 +101,21 @@ def _count_document(text: str, ids: list[int], offsets: list[tuple[int, int]], w
             word = norm_cache[surface] = normalize.normalize_str(surface) if normalize is not None else surface
         counts.count[word] += 1
         counts.total_words += 1
+        if not _starts_sentence(text, offsets[start][0]):
+            counts.inside[word] += 1
+            counts.capitalised[word] += surface[:1].isupper()
         if word not in counts.pieces:
             counts.pieces[word] = tuple(ids[start:end])
         seen.add(word)
         start = end
     return seen
+
+
+def _starts_sentence(text: str, at: int) -> bool:
+    j = at - 1
+    while j >= 0 and text[j] in " \t":
+        j -= 1
+    return j < 0 or text[j] in SENTENCE_OPENERS
 
 
 @dataclass(frozen=True)
@@ -110,23 +137,38 @@ def domain_ratio(word: str, domain: WordCounts, general: WordCounts) -> float:
         ((general.count[word] + 1) / max(general.total_words, 1))
 
 
+def left_out_by(word: str, domain: WordCounts, rule: WordRuleConfig, known: set[str],
+                general: WordCounts | None = None) -> str | None:
+    """The first rule (its key under ``words.``) that keeps ``word`` out, or None if it may be added."""
+    if word in known or len(domain.pieces[word]) < rule.min_pieces:
+        return "min_pieces"
+    checks = (("min_count", domain.count[word] < rule.min_count),
+              ("min_docs", domain.docs[word] < rule.min_docs),
+              ("min_chars", len(word) < rule.min_chars),
+              ("letters_only", rule.letters_only and not WORD_RE.fullmatch(word)),
+              ("max_capitalised_share", domain.capitalised_share(word) > rule.max_capitalised_share))
+    failed = next((key for key, fails in checks if fails), None)
+    if failed is None and general is not None and domain_ratio(word, domain, general) < rule.min_domain_ratio:
+        failed = "min_domain_ratio"
+    return failed
+
+
 def choose_words(domain: WordCounts, rule: WordRuleConfig, known: set[str],
                  general: WordCounts | None = None) -> list[ChosenWord]:
     """The words to add, most tokens saved first (ties by the word); ``known``: the tokenizer's tokens."""
-    chosen = []
-    for word, count in domain.count.items():
-        pieces = domain.pieces[word]
-        if (count < rule.min_count or domain.docs[word] < rule.min_docs or len(pieces) < rule.min_pieces
-                or len(word) < rule.min_chars or word in known):
-            continue
-        if rule.letters_only and not WORD_RE.fullmatch(word):
-            continue
-        ratio = domain_ratio(word, domain, general) if general is not None else None
-        if ratio is not None and ratio < rule.min_domain_ratio:
-            continue
-        chosen.append(ChosenWord(word, count, domain.docs[word], pieces, ratio))
+    chosen = [ChosenWord(word, count, domain.docs[word], domain.pieces[word],
+                         domain_ratio(word, domain, general) if general is not None else None)
+              for word, count in domain.count.items() if left_out_by(word, domain, rule, known, general) is None]
     chosen.sort(key=lambda c: (-c.tokens_saved, c.word))
     return chosen[:rule.max_new_tokens]
+
+
+def rule_tally(domain: WordCounts, rule: WordRuleConfig, known: set[str],
+               general: WordCounts | None = None) -> dict[str, int]:
+    """How many of the words cut into pieces each rule kept out (the first rule each fails)."""
+    tally = Counter(left_out_by(w, domain, rule, known, general) for w in domain.count
+                    if w not in known and len(domain.pieces[w]) >= 2)
+    return {key: tally[key] for key in sorted(k for k in tally if k is not None)} | {"passed": tally[None]}
 
 
 def extend_tokenizer(tokenizer: PreTrainedTokenizerBase, words: list[ChosenWord]) -> dict[str, int]:

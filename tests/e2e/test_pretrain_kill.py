@@ -21,6 +21,9 @@ from safetensors.torch import load_file
 from tests.e2e.test_pretrain import write_prepared
 
 MAX_STEPS = 16
+# The timed kill also fires once this many steps are on record, so that on a fast machine it still lands early
+# enough for the later kills to find steps left (seen: a kill 4 s after start that came after 12 of the 16 steps).
+TIMED_KILL_BY_STEP = 5
 POLL_SECONDS = 0.002
 
 
@@ -41,7 +44,8 @@ def _temp_folders(out: Path) -> set[tuple[str, int]]:
 def _condition(trigger: tuple, out: Path, started: float, lines_at_start: int, leftovers: set):
     kind, value = trigger
     if kind == "time":
-        return lambda: time.monotonic() - started >= value
+        return lambda: (time.monotonic() - started >= value
+                        or _train_lines(out) >= lines_at_start + TIMED_KILL_BY_STEP)
     if kind == "saving":  # a save this attempt began
         return lambda: bool(_temp_folders(out) - leftovers)
     return lambda: _train_lines(out) >= lines_at_start + value  # "steps": this many more steps on record

@@ -67,6 +67,7 @@ def test_vocab_job_extends_a_headless_encoder_and_pretrain_trains_it(tmp_path, t
     report = json.loads((out / "vocab_report.json").read_text())
     added = [w["word"] for w in report["added"]]
     assert set(DOMAIN) <= set(added) and NAME not in added
+    assert report["left_out"]["min_docs"] >= 1 and report["left_out"]["passed"] == len(added)
     assert report["added_count"] == len(added) == report["vocab_size"] - report["base_vocab_size"]
     assert json.loads((out / "manifest.json").read_text())["status"] == "completed"
     assert result["summary"][-1].startswith("The added words")

@@ -12,7 +12,7 @@ from transformers import AutoTokenizer, BertConfig, BertForMaskedLM, PreTrainedT
 from adapt.common.errors import InputError
 from adapt.config.vocab import WordRuleConfig
 from adapt.training.vocab import (ChosenWord, WordCounts, choose_words, count_words, domain_ratio, extend_embeddings,
-                                  extend_tokenizer, require_wordpiece)
+                                  extend_tokenizer, require_wordpiece, rule_tally)
 
 TEXTS = ["The lessee paid the arrears; the lessee's surety, Dr. Ölund, signed.",
          "Arrears of RENT-2024 were claimed by the lessee under clause 7b.",
@@ -27,7 +27,7 @@ def tok(tiny_encoder):
 
 def _rule(**kw) -> WordRuleConfig:
     base = dict(max_new_tokens=100, min_count=1, min_docs=1, min_pieces=2, min_chars=1, letters_only=True,
-                min_domain_ratio=4.0)
+                max_capitalised_share=0.9, min_domain_ratio=4.0)
     base.update(kw)
     return WordRuleConfig(**base)
 
@@ -76,6 +76,8 @@ def test_letters_only_keeps_out_numbers_and_codes():
     counts = WordCounts(Counter({"abc123": 9, "rent2024": 9, "lessee": 9}), Counter({"abc123": 9, "rent2024": 9,
                         "lessee": 9}), {"abc123": (1, 2, 3), "rent2024": (1, 2), "lessee": (4, 5)}, 27, 9)
     assert [c.word for c in choose_words(counts, _rule(), set())] == ["lessee"]
+    assert rule_tally(counts, _rule(), set()) == {"letters_only": 2, "passed": 1}
+    assert rule_tally(counts, _rule(min_docs=10), {"lessee"}) == {"min_docs": 2, "passed": 0}
     assert {c.word for c in choose_words(counts, _rule(letters_only=False), set())} == {"abc123", "rent2024",
                                                                                         "lessee"}
 
@@ -176,3 +178,20 @@ def test_a_padded_matrix_gives_its_unused_rows_to_the_new_ids(tok):
         assert torch.allclose(emb[new_ids[w.word]], old_in[list(w.pieces)].mean(0))
     untouched = [i for i in range(old_in.shape[0]) if i not in new_ids.values()]
     assert torch.equal(emb[untouched], old_in[untouched])
+
+
+def test_a_word_capitalised_inside_sentences_is_taken_for_a_name(tok):
+    texts = ["Counsel for Marsk said the lessee paid. Lessee and Marsk agreed.",
+             "The lessee wrote to Marsk. Marsk replied: Lessee must pay.",
+             "Marsk and the lessee met; marsk is spelt in lower case once here."]
+    counts = count_words(tok, [texts])
+    # inside a sentence (counted by hand): Marsk 3 times capitalised ("for", "and", "to" before it) and once in
+    # lower case (after ";"); "Marsk replied" and the third text's "Marsk and" open sentences and do not count,
+    # nor do "Lessee and" and "Lessee must" (after "." and ":"); lessee 3 times inside, never capitalised there
+    assert (counts.inside["marsk"], counts.capitalised["marsk"]) == (4, 3)
+    assert (counts.inside["lessee"], counts.capitalised["lessee"]) == (3, 0)
+    assert counts.capitalised_share("marsk") == pytest.approx(0.75)
+    chosen = {c.word for c in choose_words(counts, _rule(max_capitalised_share=0.7), set(tok.get_vocab()))}
+    assert "lessee" in chosen and "marsk" not in chosen
+    chosen = {c.word for c in choose_words(counts, _rule(max_capitalised_share=1.0), set(tok.get_vocab()))}
+    assert {"lessee", "marsk"} <= chosen  # 1.0 turns the rule off

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import os
 import string
+import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -13,6 +15,14 @@ os.environ.setdefault("TOKENIZERS_PARALLELISM", "false")
 
 TINY_WORDS = ("the court tenant landlord notice contract clause appeal judgment patient ward dose nurse scan "
               "report claim rent months of and to a in is was for on by with").split()
+
+
+def start_console(script: str, args: list[str], cwd: Path) -> subprocess.Popen:
+    """Start one of the installed console scripts (``adapt-score`` …) offline, with piped text output."""
+    exe = Path(sys.executable).parent / script
+    env = {**os.environ, "HF_HUB_OFFLINE": "1", "TOKENIZERS_PARALLELISM": "false"}
+    return subprocess.Popen([str(exe), *args], cwd=cwd, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            text=True)
 
 
 def build_tiny_encoder(folder: Path, seed: int = 0, with_head: bool = True) -> Path:

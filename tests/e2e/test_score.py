@@ -5,10 +5,8 @@ from __future__ import annotations
 
 import json
 import math
-import os
 import re
 import subprocess
-import sys
 from pathlib import Path
 
 import pytest
@@ -18,6 +16,7 @@ from adapt.config import compose_job
 from adapt.common.errors import ConfigError, InputError
 from adapt.common.io import hash_file
 from adapt.stages.score import run
+from tests.conftest import start_console
 
 DOCS = [
     "The tenant gave notice to the landlord in March.",
@@ -125,10 +124,7 @@ def test_debug_preset_runs_within_its_budget(tmp_path):
 
 
 def _cli(args: list[str], cwd: Path) -> subprocess.Popen:
-    script = Path(sys.executable).parent / "adapt-score"
-    env = {**os.environ, "HF_HUB_OFFLINE": "1", "TOKENIZERS_PARALLELISM": "false"}
-    return subprocess.Popen([str(script), *args], cwd=cwd, env=env, stdout=subprocess.PIPE,
-                            stderr=subprocess.PIPE, text=True)
+    return start_console("adapt-score", args, cwd)
 
 
 @pytest.mark.slow

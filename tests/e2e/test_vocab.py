@@ -4,10 +4,8 @@ one-line refusals through the console script."""
 from __future__ import annotations
 
 import json
-import os
 import random
 import subprocess
-import sys
 from pathlib import Path
 
 import pyarrow as pa
@@ -19,6 +17,7 @@ from transformers import AutoModelForMaskedLM, AutoTokenizer
 from adapt.common.io import hash_file
 from adapt.config import compose_job
 from adapt.stages import pretrain, vocab
+from tests.conftest import start_console
 
 COMMON = "the court tenant landlord notice contract clause appeal judgment of and to a in is was for on by".split()
 DOMAIN = ["lessee", "arrears", "surety", "estoppel"]
@@ -111,10 +110,7 @@ def test_a_head_in_the_checkpoint_is_kept_and_grown(tmp_path, tiny_encoder):
 
 
 def _cli(args: list[str], cwd: Path) -> subprocess.Popen:
-    script = Path(sys.executable).parent / "adapt-vocab"
-    env = {**os.environ, "HF_HUB_OFFLINE": "1", "TOKENIZERS_PARALLELISM": "false"}
-    return subprocess.Popen([str(script), *args], cwd=cwd, env=env, stdout=subprocess.PIPE,
-                            stderr=subprocess.PIPE, text=True)
+    return start_console("adapt-vocab", args, cwd)
 
 
 @pytest.mark.slow

@@ -10,7 +10,7 @@ from adapt.config.common import optional_str
 from adapt.common.errors import Problems
 
 # the folder keys, in the order the report reads them; every one is optional
-FOLDER_KEYS = ("prepared_dir", "general_dir", "pretrain_dir", "score_dirs", "compare_dir")
+FOLDER_KEYS = ("prepared_dir", "general_dir", "vocab_dir", "pretrain_dir", "score_dirs", "compare_dir")
 
 
 @dataclass
@@ -29,6 +29,8 @@ class ReportJob:
     prepared_dir: Optional[str] = None
     # Output folder of adapt-prepare on general text (fertility and overlap are compared with it).
     general_dir: Optional[str] = None
+    # Output folder of adapt-vocab (vocab_report.json): the words added to the encoder's vocabulary.
+    vocab_dir: Optional[str] = None
     # Run folder of adapt-pretrain (metrics.jsonl, result.json).
     pretrain_dir: Optional[str] = None
     # Output folders of adapt-score; an entry may also be a folder whose sub-folders are score folders.

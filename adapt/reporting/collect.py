@@ -43,13 +43,16 @@ def collect(cfg: ReportJob) -> tuple[dict[str, Any], list[Path]]:
     c = Collected()
     prepared = open_source("prepared", "prepared_dir", "prepare", optional_str(cfg.prepared_dir))
     general = open_source("general", "general_dir", "prepare", optional_str(cfg.general_dir))
+    vocab = open_source("vocab", "vocab_dir", "vocab", optional_str(cfg.vocab_dir))
     pretrain = open_source("pretrain", "pretrain_dir", "pretrain", optional_str(cfg.pretrain_dir))
     scores = [open_source("score", "score_dirs", "score", d) for d in expand_score_dirs(list(cfg.score_dirs))]
     compare = open_source("compare", "compare_dir", "compare", optional_str(cfg.compare_dir))
-    c.sources = [prepared, general, pretrain, *(scores or [open_source("score", "score_dirs", "score", None)]),
-                 compare]
+    # the vocab stage is optional: its folder is listed only when given
+    c.sources = [prepared, general, *([vocab] if vocab.path else []), pretrain,
+                 *(scores or [open_source("score", "score_dirs", "score", None)]), compare]
 
-    corpus = {"domain": corpus_section(c, prepared), "general": corpus_section(c, general)}
+    corpus = {"domain": corpus_section(c, prepared), "general": corpus_section(c, general),
+              "vocab": vocab_section(c, vocab)}
     training = training_section(c, pretrain)
     pppl = results.pppl_section(c, scores, cfg, pretrain, prepared, general)
     downstream = results.downstream_section(c, compare)
@@ -115,6 +118,26 @@ def corpus_section(c: Collected, src: Source) -> dict[str, Any]:
         "quality": {k: dig(profile, "quality", k) for k in ("kind", "cv_accuracy", "majority_baseline_accuracy",
                                                              "removed")},
         "warnings": [str(w) for w in profile.get("warnings") or []],
+    })
+    return out
+
+
+def vocab_section(c: Collected, src: Source, shown_words: int = 15) -> dict[str, Any]:
+    """The words adapt-vocab added and the fertility before and after: from ``vocab_report.json``."""
+    out: dict[str, Any] = src.section_head()
+    if not src.usable:
+        return out
+    rep = c.read(src, "vocab_report.json")
+    if not isinstance(rep, dict):
+        out.update(state="missing", note=f"{src.path}/vocab_report.json is missing; rerun adapt-vocab")
+        return out
+    out.update({
+        "encoder": rep.get("encoder"), "added_count": number(rep.get("added_count")),
+        "base_vocab_size": number(rep.get("base_vocab_size")), "vocab_size": number(rep.get("vocab_size")),
+        "fertility": rep.get("fertility") if isinstance(rep.get("fertility"), dict) else {},
+        "left_out": rep.get("left_out") if isinstance(rep.get("left_out"), dict) else {},
+        "top_words": [{k: w.get(k) for k in ("word", "count", "docs", "pieces", "tokens_saved")}
+                      for w in (rep.get("added") or [])[:shown_words] if isinstance(w, dict)],
     })
     return out
 

@@ -10,6 +10,7 @@ from adapt.reporting.glance import key_figures
 from adapt.reporting.values import MISSING, dig, fmt, fmt_int, fmt_seconds, fmt_share, fmt_sig, number
 
 PARTS = {"prepared": "domain corpus (prepare)", "general": "general corpus (prepare)",
+         "vocab": "vocabulary extension (vocab)",
          "pretrain": "pretraining run", "score": "pseudo-perplexity (score)", "compare": "downstream (compare)"}
 
 
@@ -83,6 +84,7 @@ def corpus_blocks(report: dict) -> list[Block]:
         blocks += _vocabulary(part)
         if part.get("warnings"):
             blocks += [Sub("Warnings from the corpus audit"), Bullets(list(part["warnings"]))]
+    blocks += _vocab_extension(dig(report, "corpus", "vocab") or {})
     blocks += _missing(general, "General corpus")
     if general.get("state") == "read":
         t = general.get("totals") or {}
@@ -148,6 +150,31 @@ def _vocabulary(part: dict) -> list[Block]:
                            + (f" Frequent domain words missing from general text: {examples}." if examples else "")))
     else:
         blocks.append(Missing("Vocabulary overlap: not measured (prepare had no general reference text)"))
+    return blocks
+
+
+def _vocab_extension(part: dict) -> list[Block]:
+    """What adapt-vocab added (shown only when a vocab folder was given)."""
+    if not part.get("path"):
+        return []
+    blocks: list[Block] = [Sub("Vocabulary extension")] + _missing(part, "Vocabulary extension")
+    if part.get("state") != "read":
+        return blocks
+    rows = [[name, fmt_int(f.get("docs")), fmt(f.get("fertility_before")), fmt(f.get("fertility_after")),
+             fmt_share(f.get("tokens_saved_share"), 1)] for name, f in (part.get("fertility") or {}).items()
+            if isinstance(f, dict)]
+    blocks += [Para(f"{fmt_int(part.get('added_count'))} domain words were added to the vocabulary of "
+                    f"{part.get('encoder') or MISSING} ({fmt_int(part.get('base_vocab_size'))} → "
+                    f"{fmt_int(part.get('vocab_size'))} tokens). Pseudo-perplexity is only comparable between "
+                    "models with the same vocabulary."),
+               Table(["text", "documents", "fertility before", "fertility after", "fewer tokens"], rows
+                     or [[MISSING] * 5], "Fertility = subword tokens per word (Rust et al. 2021)."),
+               Table(["added word", "occurrences", "documents", "pieces before", "tokens saved"],
+                     [[str(w.get("word")), fmt_int(w.get("count")), fmt_int(w.get("docs")),
+                       " ".join(map(str, w.get("pieces") or [])), fmt_int(w.get("tokens_saved"))]
+                      for w in part.get("top_words") or []] or [[MISSING] * 5],
+                     "The words that save the most tokens; the full list is in vocab_report.json. The added words "
+                     "ship inside the model's tokenizer: review them before the model is shared.")]
     return blocks
 
 

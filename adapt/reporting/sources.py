@@ -17,8 +17,8 @@ from adapt.contracts.manifest import MANIFEST
 # what each job leaves when it completed; a folder whose manifest says otherwise is "incomplete"
 COMPLETED = "completed"
 # the command that makes each kind of folder, for the messages
-COMMANDS = {"prepare": "adapt-prepare", "pretrain": "adapt-pretrain", "score": "adapt-score",
-            "compare": "adapt-compare"}
+COMMANDS = {"prepare": "adapt-prepare", "vocab": "adapt-vocab", "pretrain": "adapt-pretrain",
+            "score": "adapt-score", "compare": "adapt-compare"}
 
 
 @dataclass
@@ -114,8 +114,8 @@ def open_source(role: str, key: str, job: str, value: str | None) -> Source:
 
 
 def _key_for(job: Any) -> str:
-    return {"prepare": "prepared_dir or general_dir", "pretrain": "pretrain_dir", "score": "score_dirs",
-            "compare": "compare_dir"}.get(str(job), "the matching key")
+    return {"prepare": "prepared_dir or general_dir", "vocab": "vocab_dir", "pretrain": "pretrain_dir",
+            "score": "score_dirs", "compare": "compare_dir"}.get(str(job), "the matching key")
 
 
 def expand_score_dirs(values: list[str]) -> list[str]:

@@ -16,7 +16,10 @@ from transformers import AutoModelForMaskedLM, AutoTokenizer
 
 from adapt.common.io import hash_file
 from adapt.config import compose_job
+from adapt.config.report import ReportJob
+from adapt.reporting.values import fmt
 from adapt.stages import pretrain, vocab
+from adapt.stages import report as report_stage
 from tests.conftest import start_console
 
 COMMON = "the court tenant landlord notice contract clause appeal judgment of and to a in is was for on by".split()
@@ -50,6 +53,10 @@ def _cfg(corpus: Path, encoder: Path, out: Path, *extra: str):
     return compose_job("vocab", [f"corpus={corpus}", f"out_dir={out}", f"encoder.name_or_path={encoder}",
                                  "words.min_count=3", "words.min_docs=2", "runtime.progress=false",
                                  "runtime.num_threads=1", *extra])
+
+
+def report_figures(f: dict) -> str:
+    return f"| heldout | {f['docs']} | {fmt(f['fertility_before'])} | {fmt(f['fertility_after'])} |"
 
 
 def _files(folder: Path) -> dict[str, str]:
@@ -86,6 +93,12 @@ def test_vocab_job_extends_a_headless_encoder_and_pretrain_trains_it(tmp_path, t
     model, info = AutoModelForMaskedLM.from_pretrained(out / "model", output_loading_info=True)
     assert any(k.startswith("cls.") for k in info["missing_keys"])
     assert model.config.vocab_size == report["vocab_size"]
+
+    page = report_stage.run(ReportJob(vocab_dir=str(out), out_dir=str(tmp_path / "report")))
+    md = Path(page["markdown"]).read_text(encoding="utf-8")
+    assert "Vocabulary extension" in md and "vocab_dir" not in page["missing"]
+    assert f"{report_figures(fert)}" in md  # the heldout row carries vocab_report.json's own figures
+    assert all(f"| {w} |" in md for w in added[:5])
 
     run = pretrain.run(compose_job("pretrain", [
         f"corpus_dir={corpus}", f"out_dir={tmp_path / 'run'}", "debug=tiny", f"encoder.name_or_path={out}",

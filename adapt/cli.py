@@ -295,5 +295,9 @@ def report_main() -> None:
     _launch("report", "adapt.stages.report")
 
 
+def canary_main() -> None:
+    _launch("canary", "adapt.stages.canary")
+
+
 def demo_main() -> None:
     _launch("demo", "adapt.stages.demo")

@@ -36,6 +36,13 @@ def fsync_dir(folder: Path) -> None:
         _fsync(folder, os.O_RDONLY)
 
 
+def new_file_mode() -> int:
+    """The permission bits a newly created file gets from this process's umask (0666 & ~umask)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 def fsync_tree(folder: Path) -> None:
     """fsync every file under ``folder``, then every folder bottom-up, ``folder`` itself last: what a rename of
     ``folder`` needs before it so that the renamed folder's content survives a power loss."""

@@ -15,7 +15,7 @@ from typing import Any, Callable
 from hydra.core.config_store import ConfigStore
 from omegaconf import DictConfig, OmegaConf
 
-from adapt.config import compare, demo, prepare, pretrain, report, score, vocab
+from adapt.config import canary, compare, demo, prepare, pretrain, report, score, vocab
 from adapt.common.errors import ConfigError, Problems
 
 
@@ -46,6 +46,7 @@ JOBS: dict[str, JobSpec] = {
     "score": JobSpec("score", score.ScoreJob, score.validate),
     "compare": JobSpec("compare", compare.CompareJob, compare.validate),
     "report": JobSpec("report", report.ReportJob, report.validate),
+    "canary": JobSpec("canary", canary.CanaryJob, canary.validate),
     "demo": JobSpec("demo", demo.DemoJob, demo.validate),
 }
 

@@ -12,7 +12,7 @@ import torch
 from safetensors import SafetensorError
 
 from adapt.common.errors import InputError
-from adapt.common.io import fsync_tree, hash_file, replace_folder
+from adapt.common.io import fsync_tree, hash_file, new_file_mode, replace_folder
 from adapt.config.pretrain import PretrainJob
 from adapt.training.encoder import EXPORT_CONFIG
 
@@ -27,6 +27,9 @@ def write_model_folder(model: torch.nn.Module, tokenizer, folder: Path) -> None:
     with _exported_config(model):
         model.save_pretrained(folder, safe_serialization=True, max_shard_size=ONE_FILE)
     tokenizer.save_pretrained(folder)
+    mode = new_file_mode()  # transformers writes the weights owner-only; a shared folder needs what the umask gives
+    for weights in folder.glob("*.safetensors"):
+        weights.chmod(mode)
 
 
 @contextlib.contextmanager

@@ -13,7 +13,7 @@ from adapt.common.errors import ConfigError
 
 REQUIRED = {"prepare": ["inputs=[x]"], "pretrain": ["corpus_dir=x"], "score": ["texts=x"],
             "compare": ["+arms.base=x", "task.dir=x"], "report": ["compare_dir=x"], "demo": [],
-            "vocab": ["corpus=x"]}
+            "vocab": ["corpus=x"], "canary": ["mode=plant", "corpus=x"]}
 GROUP_OWNER = {"encoder": "pretrain", "masking": "pretrain", "schedule": "pretrain", "adapter": "pretrain",
                "task": "compare"}
 
@@ -71,7 +71,7 @@ def test_cli_reports_bad_config_in_one_line_with_exit_2(args, tmp_path):
 
 
 @pytest.mark.parametrize("job,key", [("pretrain", "corpus_dir"), ("compare", "task.dir"), ("score", "texts"),
-                                     ("vocab", "corpus")])
+                                     ("vocab", "corpus"), ("canary", "mode")])
 def test_a_key_without_default_is_named_with_the_fix(job, key):
     from adapt.common.errors import ConfigError
 

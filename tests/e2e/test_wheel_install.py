@@ -26,7 +26,7 @@ ROOT = Path(__file__).resolve().parents[2]
 SAMPLES = ROOT / "corpora_samples"
 LEGAL_SUBSET = ("judgment.jsonl", "tenancy_notice.jsonl", "contract_clauses.jsonl")
 SCRIPTS = ("adapt-prepare", "adapt-vocab", "adapt-pretrain", "adapt-score", "adapt-compare", "adapt-report",
-           "adapt-demo")
+           "adapt-canary", "adapt-demo")
 
 
 def _run(cmd: list[str], **kwargs) -> subprocess.CompletedProcess:

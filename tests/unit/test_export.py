@@ -41,3 +41,20 @@ def test_a_failed_export_leaves_no_partial_folder_and_keeps_the_previous_one(tmp
     assert _digest(tmp_path / "final") == before
     _, info = AutoModelForMaskedLM.from_pretrained(tmp_path / "final", output_loading_info=True)
     assert not info["missing_keys"]
+
+
+def test_exported_files_get_the_modes_the_umask_gives(tmp_path, tiny_encoder):
+    # transformers' save_pretrained writes model.safetensors owner-only (0600) while every other file follows the
+    # umask; a folder meant to be shared must be readable as the umask allows (POSIX umask semantics: a new file is
+    # 0666 & ~umask; common practice)
+    import os
+
+    model = AutoModelForMaskedLM.from_pretrained(tiny_encoder)
+    tokenizer = AutoTokenizer.from_pretrained(tiny_encoder)
+    old = os.umask(0o022)
+    try:
+        export_checkpoint(model, tokenizer, tmp_path / "final")
+    finally:
+        os.umask(old)
+    modes = {p.name: p.stat().st_mode & 0o777 for p in (tmp_path / "final").iterdir()}
+    assert modes["model.safetensors"] == 0o644 and set(modes.values()) == {0o644}, modes

@@ -10,7 +10,8 @@ from adapt.config.common import optional_str
 from adapt.common.errors import Problems
 
 # the folder keys, in the order the report reads them; every one is optional
-FOLDER_KEYS = ("prepared_dir", "general_dir", "vocab_dir", "pretrain_dir", "score_dirs", "compare_dir")
+FOLDER_KEYS = ("prepared_dir", "general_dir", "vocab_dir", "pretrain_dir", "canary_dir", "score_dirs",
+              "compare_dir")
 
 
 @dataclass
@@ -33,6 +34,8 @@ class ReportJob:
     vocab_dir: Optional[str] = None
     # Run folder of adapt-pretrain (metrics.jsonl, result.json).
     pretrain_dir: Optional[str] = None
+    # Output folder of adapt-canary mode=audit (exposure.json): the memorisation audit.
+    canary_dir: Optional[str] = None
     # Output folders of adapt-score; an entry may also be a folder whose sub-folders are score folders.
     score_dirs: list[str] = field(default_factory=list)
     # Output folder of adapt-compare (comparison.json, predictions.jsonl).

@@ -45,10 +45,11 @@ def collect(cfg: ReportJob) -> tuple[dict[str, Any], list[Path]]:
     general = open_source("general", "general_dir", "prepare", optional_str(cfg.general_dir))
     vocab = open_source("vocab", "vocab_dir", "vocab", optional_str(cfg.vocab_dir))
     pretrain = open_source("pretrain", "pretrain_dir", "pretrain", optional_str(cfg.pretrain_dir))
+    audit = open_source("canary", "canary_dir", "canary", optional_str(cfg.canary_dir))
     scores = [open_source("score", "score_dirs", "score", d) for d in expand_score_dirs(list(cfg.score_dirs))]
     compare = open_source("compare", "compare_dir", "compare", optional_str(cfg.compare_dir))
-    # the vocab stage is optional: its folder is listed only when given
-    c.sources = [prepared, general, *([vocab] if vocab.path else []), pretrain,
+    # the vocab and canary stages are optional: their folders are listed only when given
+    c.sources = [prepared, general, *([vocab] if vocab.path else []), pretrain, *([audit] if audit.path else []),
                  *(scores or [open_source("score", "score_dirs", "score", None)]), compare]
 
     corpus = {"domain": corpus_section(c, prepared), "general": corpus_section(c, general),
@@ -66,6 +67,7 @@ def collect(cfg: ReportJob) -> tuple[dict[str, Any], list[Path]]:
         "verdict": results.headline(downstream, pppl),
         "corpus": corpus,
         "training": training,
+        "memorisation": canary_section(c, audit),
         "pppl": pppl,
         "downstream": downstream,
         "cost": results.cost_section(training, downstream, pppl),
@@ -139,6 +141,25 @@ def vocab_section(c: Collected, src: Source, shown_words: int = 15) -> dict[str,
         "top_words": [{k: w.get(k) for k in ("word", "count", "docs", "pieces", "tokens_saved")}
                       for w in (rep.get("added") or [])[:shown_words] if isinstance(w, dict)],
     })
+    return out
+
+
+def canary_section(c: Collected, src: Source) -> dict[str, Any]:
+    """The memorisation audit: exposure per repeat count, from ``exposure.json``."""
+    out: dict[str, Any] = src.section_head()
+    if not src.usable:
+        return out
+    rep = c.read(src, "exposure.json")
+    if not isinstance(rep, dict):
+        out.update(state="missing", note=f"{src.path}/exposure.json is missing: is it the out_dir of "
+                                          "adapt-canary mode=audit?")
+        return out
+    rows = [r for r in rep.get("canaries") or [] if isinstance(r, dict)]
+    by_repeat = rep.get("mean_exposure_by_repeats") if isinstance(rep.get("mean_exposure_by_repeats"), dict) else {}
+    out.update({"encoder": rep.get("encoder"), "max_exposure": number(rep.get("max_exposure")),
+                "by_repeats": [{"repeats": int(r), "canaries": sum(1 for x in rows if x.get("repeats") == int(r)),
+                                "mean_exposure": number(v)} for r, v in by_repeat.items()],
+                "reading": rep.get("reading")})
     return out
 
 

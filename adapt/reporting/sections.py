@@ -10,12 +10,13 @@ from adapt.reporting.glance import key_figures
 from adapt.reporting.values import MISSING, dig, fmt, fmt_int, fmt_seconds, fmt_share, fmt_sig, number
 
 PARTS = {"prepared": "domain corpus (prepare)", "general": "general corpus (prepare)",
-         "vocab": "vocabulary extension (vocab)",
+         "vocab": "vocabulary extension (vocab)", "canary": "memorisation audit (canary)",
          "pretrain": "pretraining run", "score": "pseudo-perplexity (score)", "compare": "downstream (compare)"}
 
 
 def build_sections(report: dict) -> list[Section]:
-    builders = {"verdict": verdict_blocks, "corpus": corpus_blocks, "training": training_blocks,
+    builders = {"verdict": verdict_blocks, "corpus": corpus_blocks,
+                "training": lambda r: training_blocks(r) + _memorisation(r.get("memorisation") or {}),
                 "pppl": later.pppl_blocks, "downstream": later.downstream_blocks, "cost": later.cost_blocks,
                 "provenance": later.provenance_blocks, "cautions": later.caution_blocks}
     return [Section(anchor, title, builders[anchor](report)) for anchor, title in SECTIONS]
@@ -176,6 +177,22 @@ def _vocab_extension(part: dict) -> list[Block]:
                      "The words that save the most tokens; the full list is in vocab_report.json. The added words "
                      "ship inside the model's tokenizer: review them before the model is shared.")]
     return blocks
+
+
+def _memorisation(part: dict) -> list[Block]:
+    """The canary audit (shown only when an audit folder was given)."""
+    if not part.get("path"):
+        return []
+    blocks: list[Block] = [Sub("Memorisation audit (canaries)")] + _missing(part, "Memorisation audit")
+    if part.get("state") != "read":
+        return blocks
+    rows = [["controls (never planted)" if r["repeats"] == 0 else f"planted {r['repeats']}×",
+             fmt_int(r.get("canaries")), fmt(r.get("mean_exposure"), 2)]
+            for r in sorted(part.get("by_repeats") or [], key=lambda r: r["repeats"])]
+    return blocks + [Table(["canaries", "how many", "mean exposure (bits)"], rows or [[MISSING] * 3],
+                           f"Model {part.get('encoder') or MISSING}; the largest exposure measurable is "
+                           f"{fmt(part.get('max_exposure'), 2)} bits (Carlini et al. 2019). "
+                           + str(part.get("reading") or ""))]
 
 
 def training_blocks(report: dict) -> list[Block]:

@@ -18,7 +18,7 @@ from adapt.contracts.manifest import MANIFEST
 COMPLETED = "completed"
 # the command that makes each kind of folder, for the messages
 COMMANDS = {"prepare": "adapt-prepare", "vocab": "adapt-vocab", "pretrain": "adapt-pretrain",
-            "score": "adapt-score", "compare": "adapt-compare"}
+            "score": "adapt-score", "compare": "adapt-compare", "canary": "adapt-canary mode=audit"}
 
 
 @dataclass
@@ -115,7 +115,7 @@ def open_source(role: str, key: str, job: str, value: str | None) -> Source:
 
 def _key_for(job: Any) -> str:
     return {"prepare": "prepared_dir or general_dir", "vocab": "vocab_dir", "pretrain": "pretrain_dir",
-            "score": "score_dirs", "compare": "compare_dir"}.get(str(job), "the matching key")
+            "score": "score_dirs", "compare": "compare_dir", "canary": "canary_dir"}.get(str(job), "the matching key")
 
 
 def expand_score_dirs(values: list[str]) -> list[str]:

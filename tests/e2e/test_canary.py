@@ -16,7 +16,10 @@ import torch
 
 from adapt.common.io import hash_file
 from adapt.config import compose_job
+from adapt.config.report import ReportJob
+from adapt.reporting.values import fmt
 from adapt.stages import canary, pretrain
+from adapt.stages import report as report_stage
 from tests.conftest import start_console
 from tests.e2e.test_pretrain import write_prepared
 
@@ -81,6 +84,13 @@ def test_plant_pretrain_audit(tmp_path, tiny_encoder):
     assert set(report["mean_exposure_by_repeats"]) == {"0", "1", "3"}
     assert json.loads((audit_dir / "manifest.json").read_text())["status"] == "completed"
     assert any("controls (never planted)" in line for line in result["summary"])
+
+    page = report_stage.run(ReportJob(canary_dir=str(audit_dir), out_dir=str(tmp_path / "report")))
+    md = Path(page["markdown"]).read_text(encoding="utf-8")
+    assert "Memorisation audit (canaries)" in md and "canary_dir" not in page["missing"]
+    means = report["mean_exposure_by_repeats"]
+    assert f"| controls (never planted) | 2 | {fmt(means['0'], 2)} |" in md
+    assert f"| planted 3× | 2 | {fmt(means['3'], 2)} |" in md
 
 
 @pytest.mark.slow

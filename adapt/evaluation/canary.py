@@ -22,6 +22,8 @@ from dataclasses import dataclass
 
 import torch
 
+from adapt.evaluation.pppl import position_log_probs
+
 SECRET_DIGITS = 6
 TEMPLATE = "the strongroom code for matter {tag} is {secret} ."
 
@@ -86,7 +88,6 @@ def _secret_positions(tokenizer, text: str, start: int, end: int) -> tuple[list[
     return enc["input_ids"], positions
 
 
-@torch.no_grad()
 def secret_scores(model: torch.nn.Module, tokenizer, tag: str, secrets: list[str], batch_size: int = 64) -> list[float]:
     """PLL of each secret's tokens in the canary sentence of ``tag`` (one masked copy per secret token)."""
     prefix = TEMPLATE.split("{secret}")[0].format(tag=tag)
@@ -102,16 +103,14 @@ def secret_scores(model: torch.nn.Module, tokenizer, tag: str, secrets: list[str
             targets.append(ids[p])
     model.eval()
     totals = [0.0] * len(secrets)
+    pad = tokenizer.pad_token_id or 0
     for lo in range(0, len(copies), batch_size):
         chunk = copies[lo:lo + batch_size]
         width = max(len(c) for c, _ in chunk)
-        pad = tokenizer.pad_token_id or 0
         ids = torch.tensor([c + [pad] * (width - len(c)) for c, _ in chunk])
         attention = torch.tensor([[1] * len(c) + [0] * (width - len(c)) for c, _ in chunk])
-        logits = model(input_ids=ids, attention_mask=attention).logits
-        rows = torch.arange(len(chunk))
-        at = torch.tensor([p for _, p in chunk])
-        logp = torch.log_softmax(logits[rows, at].float(), dim=-1)
-        for j, value in enumerate(logp[rows, torch.tensor(targets[lo:lo + batch_size])].tolist()):
+        logp = position_log_probs(model, ids, attention, torch.tensor([p for _, p in chunk]),
+                                  torch.tensor(targets[lo:lo + batch_size]))
+        for j, value in enumerate(logp.tolist()):
             totals[owners[lo + j]] += value
     return totals

@@ -19,6 +19,7 @@ from pathlib import Path
 import pyarrow as pa
 import pyarrow.parquet as pq
 import torch
+from tqdm.auto import tqdm
 
 from adapt.common.errors import InputError
 from adapt.common.io import atomic_write_json, read_json
@@ -125,7 +126,7 @@ def audit(cfg: CanaryJob) -> dict:
             raise InputError(f"encoder.name_or_path={cfg.encoder.name_or_path}: the MLM head is untrained, so "
                              "secrets cannot be ranked; audit the final/ of the pretrain run on the planted corpus")
         rows = []
-        for c in cans:
+        for c in tqdm(cans, desc="canaries", unit="canary", disable=not cfg.runtime.progress):
             scores = secret_scores(model, tokenizer, c.tag, [c.secret] + candidates(c, cfg.audit.candidates,
                                                                                     cfg.seed), cfg.audit.batch_size)
             rows.append({"id": c.id, "repeats": c.repeats, **exposure(scores[0], scores[1:])})

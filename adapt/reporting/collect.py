@@ -37,6 +37,17 @@ class Collected:
         self.files_read.append(path)
         return read_json_file(path, src.key)
 
+    def section(self, src: Source, name: str, rerun: str) -> tuple[dict[str, Any], dict | None]:
+        """A section's head and the JSON file ``name`` of ``src``; None (the head marked missing) without it."""
+        out: dict[str, Any] = src.section_head()
+        if not src.usable:
+            return out, None
+        data = self.read(src, name)
+        if not isinstance(data, dict):
+            out.update(state="missing", note=f"{src.path}/{name} is missing; {rerun}")
+            return out, None
+        return out, data
+
 
 def collect(cfg: ReportJob) -> tuple[dict[str, Any], list[Path]]:
     """The report's numbers, and the files they came from."""
@@ -79,12 +90,8 @@ def collect(cfg: ReportJob) -> tuple[dict[str, Any], list[Path]]:
 
 def corpus_section(c: Collected, src: Source) -> dict[str, Any]:
     """What prepare kept and removed, and why: from ``profile.json``."""
-    out: dict[str, Any] = src.section_head()
-    if not src.usable:
-        return out
-    profile = c.read(src, "profile.json")
-    if not isinstance(profile, dict):
-        out.update(state="missing", note=f"{src.path}/profile.json is missing; rerun adapt-prepare")
+    out, profile = c.section(src, "profile.json", "rerun adapt-prepare")
+    if profile is None:
         return out
     funnel = [{"stage": r.get("stage"), "docs": number(r.get("docs")), "words": number(r.get("words"))}
               for r in profile.get("funnel") or [] if isinstance(r, dict)]
@@ -126,12 +133,8 @@ def corpus_section(c: Collected, src: Source) -> dict[str, Any]:
 
 def vocab_section(c: Collected, src: Source, shown_words: int = 15) -> dict[str, Any]:
     """The words adapt-vocab added and the fertility before and after: from ``vocab_report.json``."""
-    out: dict[str, Any] = src.section_head()
-    if not src.usable:
-        return out
-    rep = c.read(src, "vocab_report.json")
-    if not isinstance(rep, dict):
-        out.update(state="missing", note=f"{src.path}/vocab_report.json is missing; rerun adapt-vocab")
+    out, rep = c.section(src, "vocab_report.json", "rerun adapt-vocab")
+    if rep is None:
         return out
     out.update({
         "encoder": rep.get("encoder"), "added_count": number(rep.get("added_count")),
@@ -146,13 +149,8 @@ def vocab_section(c: Collected, src: Source, shown_words: int = 15) -> dict[str,
 
 def canary_section(c: Collected, src: Source) -> dict[str, Any]:
     """The memorisation audit: exposure per repeat count, from ``exposure.json``."""
-    out: dict[str, Any] = src.section_head()
-    if not src.usable:
-        return out
-    rep = c.read(src, "exposure.json")
-    if not isinstance(rep, dict):
-        out.update(state="missing", note=f"{src.path}/exposure.json is missing: is it the out_dir of "
-                                          "adapt-canary mode=audit?")
+    out, rep = c.section(src, "exposure.json", "rerun adapt-canary mode=audit (a mode=plant folder has none)")
+    if rep is None:
         return out
     rows = [r for r in rep.get("canaries") or [] if isinstance(r, dict)]
     by_repeat = rep.get("mean_exposure_by_repeats") if isinstance(rep.get("mean_exposure_by_repeats"), dict) else {}

@@ -55,11 +55,8 @@ def pppl_section(c: "Collected", scores: list[Source], cfg: ReportJob, pretrain:
     """One row per score folder, and per text set the paired ratio of every arm against ``base``."""
     rows, raw = [], {}
     for src in scores:
-        row: dict[str, Any] = src.section_head()
-        data = c.read(src, "scores.json") if src.usable else None
-        if src.usable and not isinstance(data, dict):
-            row.update(state="missing", note=f"{src.path}/scores.json is missing; rerun adapt-score")
-        if isinstance(data, dict) and src.usable:
+        row, data = c.section(src, "scores.json", "rerun adapt-score")
+        if data is not None:
             row.update({"arm": _arm_label(data.get("encoder"), pretrain),
                         "texts": _text_label(data.get("texts"), data.get("split"), prepared, general),
                         "encoder": data.get("encoder"), "pseudo_perplexity": number(data.get("pseudo_perplexity")),
@@ -85,12 +82,8 @@ def pppl_section(c: "Collected", scores: list[Source], cfg: ReportJob, pretrain:
 
 
 def downstream_section(c: "Collected", src: Source) -> dict[str, Any]:
-    out: dict[str, Any] = src.section_head()
-    if not src.usable:
-        return out
-    comparison = c.read(src, "comparison.json")
-    if not isinstance(comparison, dict):
-        out.update(state="missing", note=f"{src.path}/comparison.json is missing; rerun adapt-compare")
+    out, comparison = c.section(src, "comparison.json", "rerun adapt-compare")
+    if comparison is None:
         return out
     labels = [str(x) for x in dig(comparison, "task", "labels") or []]
     pred_path = src.path / "predictions.jsonl"

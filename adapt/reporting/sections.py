@@ -154,12 +154,18 @@ def _vocabulary(part: dict) -> list[Block]:
     return blocks
 
 
+def _optional_head(part: dict, title: str) -> tuple[list[Block], bool]:
+    """The heading of a part of an optional stage: nothing when its folder was not given; with the reason when
+    it was given but could not be read. The flag says whether the part's own blocks follow."""
+    if not part.get("path"):
+        return [], False
+    return [Sub(title)] + _missing(part, title), part.get("state") == "read"
+
+
 def _vocab_extension(part: dict) -> list[Block]:
     """What adapt-vocab added (shown only when a vocab folder was given)."""
-    if not part.get("path"):
-        return []
-    blocks: list[Block] = [Sub("Vocabulary extension")] + _missing(part, "Vocabulary extension")
-    if part.get("state") != "read":
+    blocks, read = _optional_head(part, "Vocabulary extension")
+    if not read:
         return blocks
     rows = [[name, fmt_int(f.get("docs")), fmt(f.get("fertility_before")), fmt(f.get("fertility_after")),
              fmt_share(f.get("tokens_saved_share"), 1)] for name, f in (part.get("fertility") or {}).items()
@@ -181,10 +187,8 @@ def _vocab_extension(part: dict) -> list[Block]:
 
 def _memorisation(part: dict) -> list[Block]:
     """The canary audit (shown only when an audit folder was given)."""
-    if not part.get("path"):
-        return []
-    blocks: list[Block] = [Sub("Memorisation audit (canaries)")] + _missing(part, "Memorisation audit")
-    if part.get("state") != "read":
+    blocks, read = _optional_head(part, "Memorisation audit (canaries)")
+    if not read:
         return blocks
     rows = [["controls (never planted)" if r["repeats"] == 0 else f"planted {r['repeats']}×",
              fmt_int(r.get("canaries")), fmt(r.get("mean_exposure"), 2)]

@@ -185,3 +185,17 @@ def test_per_class_uses_every_seed(tmp_path):
     base = report["downstream"]["per_class"]["base"]
     assert base["labels"] == LABELS and base["n_runs"] == 2
     assert sum(map(sum, base["confusion"])) == 2 * 12  # 12 test examples × 2 seeds
+
+
+def test_a_plant_folder_given_as_canary_dir_is_marked_missing(tmp_path):
+    from adapt.contracts.manifest import RunFolder
+
+    plant = tmp_path / "planted"
+    RunFolder(plant, "canary", {"mode": "plant"}, [], 0).finish()
+    report, _ = collect(ReportJob(canary_dir=str(plant), out_dir=str(tmp_path / "r")))
+    part = report["memorisation"]
+    assert part["state"] == "missing" and "exposure.json is missing" in part["note"] and "mode=audit" in part["note"]
+    assert [s["key"] for s in report["sources"]].count("canary_dir") == 1
+    report, _ = collect(ReportJob(compare_dir=None, prepared_dir=str(write_prepared(tmp_path / "p")),
+                                  out_dir=str(tmp_path / "r2")))
+    assert "canary_dir" not in [s["key"] for s in report["sources"]]  # an optional stage not given is not listed

@@ -12,7 +12,6 @@ from pathlib import Path
 import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
-import torch
 
 from adapt.common.io import hash_file
 from adapt.config import compose_job
@@ -22,13 +21,6 @@ from adapt.stages import canary, pretrain
 from adapt.stages import report as report_stage
 from tests.conftest import start_console
 from tests.e2e.test_pretrain import write_prepared
-
-
-@pytest.fixture(autouse=True)
-def _restore_threads():
-    before = torch.get_num_threads()
-    yield
-    torch.set_num_threads(before)
 
 
 def _scored_corpus(folder: Path) -> Path:

@@ -9,7 +9,6 @@ from collections import Counter
 
 import numpy as np
 import pytest
-import torch
 from sklearn.metrics import f1_score
 from statsmodels.stats.multitest import multipletests
 
@@ -17,13 +16,6 @@ from adapt.config import compose_job
 from adapt.stages.compare import run
 from tests.conftest import build_tiny_encoder
 from tests.e2e.test_compare import make_task
-
-
-@pytest.fixture(autouse=True)
-def _restore_threads():
-    before = torch.get_num_threads()
-    yield
-    torch.set_num_threads(before)
 
 
 def _job(tmp_path, task, arms: dict, *extra: str):

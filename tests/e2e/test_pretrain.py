@@ -39,14 +39,6 @@ def tiny_cfg(tmp_path: Path, encoder: Path, out: str, *extra: str):
                                     *extra])
 
 
-@pytest.fixture(autouse=True)
-def _restore_threads():
-    # run() applies runtime.num_threads=1 (faster for the tiny model) process-wide; give other tests theirs back
-    before = torch.get_num_threads()
-    yield
-    torch.set_num_threads(before)
-
-
 def test_fresh_run_writes_the_contract(tmp_path, tiny_encoder_headless):
     result = run(tiny_cfg(tmp_path, tiny_encoder_headless, "run", "eval.pppl_max_tokens=120"))
     out = tmp_path / "run"

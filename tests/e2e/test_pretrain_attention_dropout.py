@@ -19,13 +19,6 @@ from tests.e2e.test_pretrain import tiny_cfg
 ATTR = "attention_probs_dropout_prob"  # BertConfig's name for it (transformers' BertConfig docstring)
 
 
-@pytest.fixture(autouse=True)
-def _restore_threads():
-    before = torch.get_num_threads()  # run() applies runtime.num_threads=1 process-wide
-    yield
-    torch.set_num_threads(before)
-
-
 def _original(encoder: Path) -> float:
     return json.loads((encoder / "config.json").read_text())[ATTR]
 

@@ -25,7 +25,7 @@ import pytest
 from adapt.cli import EXIT_STOPPED, EXIT_USER_ERROR
 from adapt.stages.pretrain import run
 from tests.conftest import build_tiny_encoder
-from tests.e2e.test_pretrain import _restore_threads, tiny_cfg, write_prepared  # noqa: F401 (an autouse fixture)
+from tests.e2e.test_pretrain import tiny_cfg, write_prepared
 
 WORKER = textwrap.dedent("""
     # run each case of a JSON file through the console script's entry point; write code, stdout, stderr

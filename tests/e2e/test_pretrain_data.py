@@ -19,7 +19,7 @@ from adapt.common.errors import ConfigError, InputError
 from adapt.config import compose_job
 from adapt.stages.pretrain import run
 from adapt.training.packing import BatchCursor
-from tests.e2e.test_pretrain import _restore_threads, tiny_cfg  # noqa: F401 (an autouse fixture)
+from tests.e2e.test_pretrain import tiny_cfg
 
 # in the tiny vocabulary, and outside it (cut into letter pieces: words of several tokens)
 KNOWN = "the court tenant landlord notice contract clause appeal rent months of and to a in".split()

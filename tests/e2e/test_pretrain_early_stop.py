@@ -13,7 +13,7 @@ from safetensors.torch import load_file
 from adapt.common.errors import ConfigError
 from adapt.config import compose_job
 from adapt.stages.pretrain import run
-from tests.e2e.test_pretrain import _restore_threads, tiny_cfg  # noqa: F401 (an autouse fixture)
+from tests.e2e.test_pretrain import tiny_cfg
 
 # min_improvement far above any fall of the loss: only the first evaluation counts as an improvement, so the best
 # step is the first evaluated one (2) and patience 2 stops the run at the second evaluation after it (6)

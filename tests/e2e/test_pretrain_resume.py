@@ -19,7 +19,7 @@ from adapt.common.errors import ConfigError, InputError
 from adapt.common.io import hash_file
 from adapt.stages.pretrain import run
 from tests.conftest import build_tiny_encoder
-from tests.e2e.test_pretrain import _restore_threads, tiny_cfg  # noqa: F401 (an autouse fixture)
+from tests.e2e.test_pretrain import tiny_cfg
 
 
 def _folder_digest(folder: Path) -> dict[str, str]:

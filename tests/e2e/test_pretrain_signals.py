@@ -19,7 +19,7 @@ from safetensors.torch import load_file
 
 import adapt.stages.pretrain as stage
 from tests.conftest import build_tiny_encoder
-from tests.e2e.test_pretrain import _restore_threads, tiny_cfg  # noqa: F401 (an autouse fixture)
+from tests.e2e.test_pretrain import tiny_cfg
 
 # phase -> (function of adapt.stages.pretrain that signals when entered, on which call)
 PHASES = {

@@ -10,7 +10,6 @@ import subprocess
 from pathlib import Path
 
 import pytest
-import torch
 
 from adapt.config import compose_job
 from adapt.common.errors import ConfigError, InputError
@@ -32,14 +31,6 @@ DOCS = [
     "Report of the ward round: patient stable.",
     "The landlord and the tenant signed the contract.",
 ]
-
-
-@pytest.fixture(autouse=True)
-def _restore_threads():
-    # run() applies runtime.num_threads=1 (faster for the tiny model) process-wide; give other tests theirs back
-    before = torch.get_num_threads()
-    yield
-    torch.set_num_threads(before)
 
 
 def _texts(tmp_path: Path) -> Path:

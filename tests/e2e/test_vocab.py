@@ -42,13 +42,6 @@ def write_corpus(folder: Path, seed: int = 0) -> Path:
     return folder
 
 
-@pytest.fixture(autouse=True)
-def _restore_threads():
-    before = torch.get_num_threads()
-    yield
-    torch.set_num_threads(before)
-
-
 def _cfg(corpus: Path, encoder: Path, out: Path, *extra: str):
     return compose_job("vocab", [f"corpus={corpus}", f"out_dir={out}", f"encoder.name_or_path={encoder}",
                                  "words.min_count=3", "words.min_docs=2", "runtime.progress=false",

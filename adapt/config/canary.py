@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from adapt.config.common import EncoderConfig, RuntimeConfig, validate_encoder, validate_runtime
+from adapt.config.common import (EncoderConfig, RuntimeConfig, validate_encoder, validate_out_dir_apart,
+                                 validate_runtime)
 from adapt.common.errors import Problems
 
 MODES = ("plant", "audit")
@@ -54,6 +55,9 @@ def validate(cfg: CanaryJob, p: Problems, prefix: str = "") -> None:
         p.check(bool(cfg.corpus), f"{k}corpus is not set; pass {k}corpus=<output folder of adapt-prepare>")
     if cfg.mode == "audit":
         p.check(bool(cfg.planted), f"{k}planted is not set; pass {k}planted=<out_dir of adapt-canary mode=plant>")
+    read = cfg.corpus if cfg.mode == "plant" else cfg.planted
+    if read:  # the corpus (or the planted copy) is only read
+        validate_out_dir_apart(cfg.out_dir, [read], k, p)
     p.check(bool(cfg.plant.repeats) and all(r >= 1 for r in cfg.plant.repeats),
             f"{k}plant.repeats={list(cfg.plant.repeats)} needs counts >= 1; try {k}plant.repeats='[1,4,16]'")
     p.check(cfg.plant.per_repeat >= 1, f"{k}plant.per_repeat={cfg.plant.per_repeat} must be >= 1")

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any, Optional
 
 from adapt.common.errors import Problems
@@ -81,6 +82,18 @@ def validate_runtime(cfg: RuntimeConfig, prefix: str, p: Problems) -> None:
             f"{prefix}.precision={cfg.precision!r} is not one of {', '.join(PRECISIONS)}; "
             f"try {prefix}.precision=auto")
     p.check(cfg.num_threads >= 0, f"{prefix}.num_threads={cfg.num_threads} is negative; use 0 for the default")
+
+
+def validate_out_dir_apart(out_dir: str, inputs: list[str], k: str, p: Problems) -> None:
+    """``out_dir`` must not overlap an input folder: writing there would modify an input (checked at compose time,
+    before Hydra creates the folder and writes .hydra/ into it)."""
+    out = Path(out_dir).resolve()
+    for raw in inputs:
+        inp = Path(raw).resolve()
+        if out == inp or inp in out.parents:
+            p.add(f"{k}out_dir={out_dir} is inside the input folder {raw}; choose an out_dir outside the inputs")
+        elif out in inp.parents:
+            p.add(f"{k}out_dir={out_dir} contains the input {raw}; choose an out_dir outside the inputs")
 
 
 def optional_str(value: Optional[str]) -> Optional[str]:

@@ -7,10 +7,9 @@ prepare presets set their paths to ``${samples_dir:}/...``.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Optional
 
-from adapt.config.common import EncoderConfig, validate_encoder
+from adapt.config.common import EncoderConfig, validate_encoder, validate_out_dir_apart
 from adapt.common.errors import Problems
 
 LANGUAGES = ("en", "es")
@@ -281,13 +280,7 @@ def _validate_out_dir(cfg: PrepareJob, p: Problems, k: str) -> None:
     if not cfg.out_dir:
         p.add(f"{k}out_dir is empty; try {k}out_dir=runs/prepared")
         return
-    out = Path(cfg.out_dir).resolve()
-    for raw in cfg.inputs:
-        inp = Path(raw).resolve()
-        if out == inp or inp in out.parents:
-            p.add(f"{k}out_dir={cfg.out_dir} is inside the input folder {raw}; choose an out_dir outside the inputs")
-        elif out in inp.parents:
-            p.add(f"{k}out_dir={cfg.out_dir} contains the input {raw}; choose an out_dir outside the inputs")
+    validate_out_dir_apart(cfg.out_dir, list(cfg.inputs), k, p)
 
 
 def validate(cfg: PrepareJob, p: Problems, prefix: str = "") -> None:

@@ -5,7 +5,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Optional
 
-from adapt.config.common import EncoderConfig, RuntimeConfig, validate_encoder, validate_runtime
+from adapt.config.common import (EncoderConfig, RuntimeConfig, optional_str, validate_encoder,
+                                 validate_out_dir_apart, validate_runtime)
 from adapt.common.errors import Problems
 
 
@@ -57,6 +58,8 @@ def validate(cfg: VocabJob, p: Problems, prefix: str = "") -> None:
     validate_encoder(cfg.encoder, f"{k}encoder", p)
     validate_runtime(cfg.runtime, f"{k}runtime", p)
     p.check(cfg.corpus not in ("", "???"), f"{k}corpus is not set; pass {k}corpus=<output folder of adapt-prepare>")
+    read = [d for d in (cfg.corpus, optional_str(cfg.general)) if d and d != "???"]
+    validate_out_dir_apart(cfg.out_dir, read, k, p)  # the corpora are only read
     p.check(cfg.max_docs >= 0, f"{k}max_docs={cfg.max_docs} is negative; use 0 for all documents")
     w = cfg.words
     p.check(1 <= w.max_new_tokens <= 100_000,

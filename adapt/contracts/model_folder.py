@@ -50,10 +50,10 @@ def resolve_model_folder(name_or_path: str, key: str, allow_model_id: bool = Tru
             allowed += ", a model id org/name from the local cache"
         raise InputError(f"{key}={name_or_path}: " + ("not found" if allow_model_id else "folder does not exist")
                          + f"; give {allowed} or {PACKAGED_ENCODER}")
-    for inner in (FINAL, VOCAB_MODEL):
-        if not (path / "config.json").is_file() and (path / inner / "config.json").is_file():
-            log.info("%s: using %s", key, path / inner)
-            path = path / inner
+    inner = next((d for d in (FINAL, VOCAB_MODEL) if (path / d / "config.json").is_file()), None)
+    if not (path / "config.json").is_file() and inner is not None:
+        log.info("%s: using %s", key, path / inner)
+        path = path / inner
     if not (path / "config.json").is_file():
         raise InputError(f"{key}={name_or_path}: no config.json in the folder; give a model folder (config.json, "
                          f"weights, tokenizer files), a pretrain run folder with final/, a vocab folder with "

@@ -48,6 +48,10 @@ def random_secret(rng: random.Random) -> str:
     return " ".join(rng.choice(string.digits) for _ in range(SECRET_DIGITS))
 
 
+def _random_tag(rng: random.Random) -> str:
+    return "".join(rng.choice(string.ascii_lowercase) for _ in range(6))
+
+
 def make_canaries(repeats: list[int], per_repeat: int, controls: int, seed: int) -> list[Canary]:
     """``per_repeat`` canaries for each repeat count, and ``controls`` that are never planted; tags are distinct."""
     rng = random.Random(seed)
@@ -55,9 +59,9 @@ def make_canaries(repeats: list[int], per_repeat: int, controls: int, seed: int)
     tags: set[str] = set()
     out = []
     for i, r in enumerate(counts):
-        tag = "".join(rng.choice(string.ascii_lowercase) for _ in range(6))
+        tag = _random_tag(rng)
         while tag in tags:
-            tag = "".join(rng.choice(string.ascii_lowercase) for _ in range(6))
+            tag = _random_tag(rng)
         tags.add(tag)
         out.append(Canary(f"canary-{i:03d}", tag, random_secret(rng), r))
     return out

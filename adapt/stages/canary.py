@@ -62,9 +62,6 @@ def _canary_rows(cans: list[Canary], schema: pa.Schema, quality: float | None, f
 def plant(cfg: CanaryJob) -> dict:
     src, out = Path(cfg.corpus), Path(cfg.out_dir)
     train, heldout = split_shards(src, "train"), split_shards(src, "heldout")
-    if out.resolve() == src.resolve() or src.resolve() in out.resolve().parents:
-        raise InputError(f"out_dir={cfg.out_dir}: is inside corpus={cfg.corpus}; the corpus is never changed, so "
-                         "give an out_dir outside it")
     folder = RunFolder(out, "canary", cfg, inputs=[src], seed=cfg.seed)
     try:
         for split, shards in (("train", train), ("heldout", heldout)):
@@ -108,10 +105,6 @@ def _read_canaries(planted: str) -> list[Canary]:
         raise InputError(f"{path}: not a canary list written by adapt-canary ({exc}); run mode=plant again") from exc
 
 
-def _mean(values: list[float]) -> float | None:
-    return sum(values) / len(values) if values else None
-
-
 def audit(cfg: CanaryJob) -> dict:
     cans = _read_canaries(cfg.planted)
     path = resolve_model_folder(cfg.encoder.name_or_path, KEY)
@@ -130,7 +123,7 @@ def audit(cfg: CanaryJob) -> dict:
             scores = secret_scores(model, tokenizer, c.tag, [c.secret] + candidates(c, cfg.audit.candidates,
                                                                                     cfg.seed), cfg.audit.batch_size)
             rows.append({"id": c.id, "repeats": c.repeats, **exposure(scores[0], scores[1:])})
-        by_repeat = {str(r): _mean([x["exposure"] for x in rows if x["repeats"] == r])
+        by_repeat = {str(r): statistics.fmean(x["exposure"] for x in rows if x["repeats"] == r)
                      for r in sorted({c.repeats for c in cans})}
         result = {"encoder": cfg.encoder.name_or_path, "planted": cfg.planted, "canaries": rows,
                   "mean_exposure_by_repeats": by_repeat, "controls_mean_exposure": by_repeat.get("0"),

@@ -28,7 +28,7 @@ from adapt.corpus.profile import tokenizer_stats
 from adapt.training.encoder import KEY, encoder_body, load_mlm, load_tokenizer, open_tokenizer, vocab_sha256
 from adapt.training.export import export_checkpoint
 from adapt.training.vocab import (ChosenWord, WordCounts, choose_words, count_words, extend_embeddings,
-                                  extend_tokenizer, require_wordpiece, rule_tally)
+                                  extend_tokenizer, require_wordpiece, rule_tally, split_words)
 
 log = logging.getLogger(__name__)
 
@@ -51,8 +51,7 @@ def _texts(shards: list[Path], limit: int) -> list[str]:
 
 
 def _no_word_error(cfg: VocabJob, counts: WordCounts, known: set[str]) -> InputError:
-    split = [(c, w) for w, c in counts.count.items() if len(counts.pieces[w]) >= 2 and w not in known]
-    top = max(split, default=None)
+    top = max(((counts.count[w], w) for w in split_words(counts, known)), default=None)
     seen = (f"the most frequent split word, {top[1]!r}, occurs {top[0]} times in {counts.docs[top[1]]} documents"
             if top else "no word is split into pieces")
     return InputError(f"corpus={cfg.corpus}: no word of {counts.total_docs} training documents meets the rule "
@@ -121,7 +120,7 @@ def run(cfg: VocabJob) -> dict:
         inputs.append(Path(path))
     folder = RunFolder(cfg.out_dir, "vocab", cfg, inputs=[p for p in inputs if p.exists()], seed=cfg.seed)
     try:
-        result = _extend(cfg, path, setting, base_tok, train, heldout, general)
+        result = _extend(cfg, path, setting, base_tok, train, heldout, general, general_dir)
     except BaseException:
         folder.finish(status="failed")
         raise
@@ -130,7 +129,7 @@ def run(cfg: VocabJob) -> dict:
     return result
 
 
-def _extend(cfg: VocabJob, path: str, setting: str, base_tok, train, heldout, general) -> dict:
+def _extend(cfg: VocabJob, path: str, setting: str, base_tok, train, heldout, general, general_dir) -> dict:
     domain = count_words(base_tok, iter_text_batches(train, BATCH_ROWS), cfg.max_docs)
     general_counts = count_words(base_tok, iter_text_batches(general, BATCH_ROWS)) if general else None
     known = set(base_tok.get_vocab())
@@ -154,7 +153,7 @@ def _extend(cfg: VocabJob, path: str, setting: str, base_tok, train, heldout, ge
                     "not in the checkpoint: not written, so adapt-pretrain warms it up",
         "embedding_init": "mean of the word's pieces' embedding rows",
         "counted": {"docs": domain.total_docs, "words": domain.total_words, "distinct_words": len(domain.count)},
-        "rule": dict(vars(cfg.words)), "general": optional_str(cfg.general),
+        "rule": dict(vars(cfg.words)), "general": general_dir,
         "left_out": rule_tally(domain, cfg.words, known, general_counts),
         "fertility": _fertility(base_tok, tokenizer, texts),
         "weights": weights,

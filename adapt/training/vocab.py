@@ -29,8 +29,6 @@ from adapt.config.vocab import WordRuleConfig
 
 WORD_RE = re.compile(r"[^\W\d_]+(?:[-'’][^\W\d_]+)*", re.UNICODE)  # letters, with inner hyphens or apostrophes
 MAX_DOC_CHARS = 200_000  # per document counted: a longer one adds little to word counts and costs memory
-
-
 SENTENCE_OPENERS = frozenset('.!?:\n"(“')  # after one of these (spaces skipped) a word starts a sentence
 
 
@@ -163,11 +161,15 @@ def choose_words(domain: WordCounts, rule: WordRuleConfig, known: set[str],
     return chosen[:rule.max_new_tokens]
 
 
+def split_words(domain: WordCounts, known: set[str]) -> list[str]:
+    """The counted words the tokenizer cuts into pieces (the candidates of the rule)."""
+    return [w for w in domain.count if w not in known and len(domain.pieces[w]) >= 2]
+
+
 def rule_tally(domain: WordCounts, rule: WordRuleConfig, known: set[str],
                general: WordCounts | None = None) -> dict[str, int]:
     """How many of the words cut into pieces each rule kept out (the first rule each fails)."""
-    tally = Counter(left_out_by(w, domain, rule, known, general) for w in domain.count
-                    if w not in known and len(domain.pieces[w]) >= 2)
+    tally = Counter(left_out_by(w, domain, rule, known, general) for w in split_words(domain, known))
     return {key: tally[key] for key in sorted(k for k in tally if k is not None)} | {"passed": tally[None]}
 
 

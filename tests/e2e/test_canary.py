@@ -89,7 +89,12 @@ def test_plant_pretrain_audit(tmp_path, tiny_encoder):
 def test_console_script_refuses_in_one_line(tmp_path, tiny_encoder):
     empty = tmp_path / "empty"
     empty.mkdir()
+    corpus = write_prepared(tmp_path / "corpus")
+    before = _files(corpus)
     procs = [(start_console("adapt-canary", [f"out_dir={tmp_path / 'a'}"], tmp_path), "mode is not set"),
+             # refused at compose time, before Hydra would write .hydra/ into the corpus
+             (start_console("adapt-canary", ["mode=plant", f"corpus={corpus}", f"out_dir={corpus / 'planted'}"],
+                            tmp_path), "is inside the input folder"),
              (start_console("adapt-canary", ["mode=audit", f"planted={empty}", f"out_dir={tmp_path / 'b'}",
                                              f"encoder.name_or_path={tiny_encoder}"], tmp_path), "canaries.json")]
     for proc, needle in procs:
@@ -97,3 +102,4 @@ def test_console_script_refuses_in_one_line(tmp_path, tiny_encoder):
         errors = [ln for ln in err.splitlines() if ln.startswith("error:")]
         assert proc.returncode == 2 and len(errors) == 1 and needle in errors[0], err
         assert "Traceback" not in err
+    assert _files(corpus) == before and not (corpus / "planted").exists()
